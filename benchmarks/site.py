@@ -1,0 +1,99 @@
+"""Time split of `siting check` on each shipped example.
+
+    python benchmarks/site.py [--spacing 0.1]
+
+Runs the same analysis as `siting check` on every file in rooms/ and prints, per
+example, the share of wall time spent in field evaluation (every call into the
+scene, the grid and the optimiser's refinement alike), in contouring (contourpy
+and the shapely polygons built from it) and in everything else (the checks
+proper), plus grid points per second.  The field evaluation should be the bulk.
+"""
+
+from __future__ import annotations
+
+import argparse
+import functools
+import time
+from pathlib import Path
+
+import siting.analysis.checks as checks_mod
+import siting.analysis.contours as contours_mod
+from siting.site.build import build_scene, build_sources
+from siting.site.loader import load_site
+
+ROOMS = Path(__file__).resolve().parents[1] / "rooms"
+
+
+class Timed:
+    """Accumulates the wall time spent inside wrapped callables."""
+
+    def __init__(self):
+        self.seconds = 0.0
+        self.points = 0
+
+    def wrap(self, fn, count_points=False):
+        @functools.wraps(fn)
+        def inner(*args, **kwargs):
+            t0 = time.perf_counter()
+            try:
+                return fn(*args, **kwargs)
+            finally:
+                self.seconds += time.perf_counter() - t0
+                if count_points:
+                    self.points += len(args[0])
+
+        return inner
+
+
+class TimedScene:
+    """A scene proxy whose field and magnitude calls are timed."""
+
+    def __init__(self, scene, timer: Timed):
+        self._scene = scene
+        self.field = timer.wrap(scene.field, count_points=True)
+        self.magnitude = timer.wrap(scene.magnitude, count_points=True)
+
+    def __getattr__(self, name):
+        return getattr(self._scene, name)
+
+
+def run(path: Path, spacing: float | None) -> str:
+    site = load_site(path)
+    field_t, contour_t = Timed(), Timed()
+    originals = {}
+    for mod in (contours_mod, checks_mod):
+        for name in ("level_region", "level_lines"):
+            if hasattr(mod, name):
+                originals[(mod, name)] = getattr(mod, name)
+                setattr(mod, name, contour_t.wrap(getattr(mod, name)))
+    try:
+        t0 = time.perf_counter()
+        scene = TimedScene(build_scene(site, build_sources(site)), field_t)
+        result = checks_mod.check_site(site, scene, spacing=spacing)
+        total = time.perf_counter() - t0
+    finally:
+        for (mod, name), fn in originals.items():
+            setattr(mod, name, fn)
+    grid_points = sum(ff.bmax.size * len(ff.grid.heights) for ff in result.floor_fields.values())
+    other = total - field_t.seconds - contour_t.seconds
+    return (
+        f"example={path.stem} total_s={total:.2f} field={100 * field_t.seconds / total:.0f}% "
+        f"contours={100 * contour_t.seconds / total:.0f}% checks={100 * other / total:.0f}% "
+        f"grid_points={grid_points} field_points_per_s={field_t.points / field_t.seconds:.3g} "
+        f"failures={result.failures}"
+    )
+
+
+def main() -> None:
+    parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    parser.add_argument("--spacing", type=float, default=None, help="plan grid spacing [m]")
+    args = parser.parse_args()
+    # warm the compiled kernels so compile time is not counted
+    for path in sorted(ROOMS.glob("*.toml")):
+        run(path, 1.0)
+    for path in sorted(ROOMS.glob("*.toml")):
+        print(run(path, args.spacing), flush=True)
+
+
+if __name__ == "__main__":
+    main()
