@@ -1,0 +1,288 @@
+"""Room, equipment and controlled-access checks on a site's stray field.
+
+Room maximum.  A room is the prism of its plan outline times the check band
+``[floor elevation + min(check_heights), floor elevation + max(check_heights)]``.
+In a current-free region every Cartesian component B_i of B is harmonic, so
+Laplacian(|B|^2) = 2 sum_i |grad B_i|^2 >= 0: |B|^2 is subharmonic and its
+maximum over the prism lies on the prism's boundary (weak maximum principle,
+e.g. L. C. Evans, *Partial Differential Equations*, 2nd ed., 2010, sec. 2.2.3;
+section number from memory).  The boundary is the two band faces and the
+walls, so the search covers
+
+* the faces: starts at the local maxima of the band maximum among the grid
+  nodes inside the room, put on the nearer band face, refined by a compass
+  search in (x, y) that rejects points outside the outline;
+* the walls: samples along the outline at the grid spacing, valued by
+  interpolating the band maximum (the model itself next to undefined nodes),
+  refined from the best local maxima by a compass search in (arc length
+  along the outline, z), z bounded to the band.
+
+The compass (pattern) search is a derivative-free local optimiser run for all
+starts of all rooms of a floor at once, so each iteration is one vectorised
+``scene.magnitude`` call; it stops when its step falls below 1e-2 grid
+spacings, so the reported maximum (always a value the model gave at a point
+of the prism) does not depend on the grid spacing.
+
+Undefined model (NaN: inside a magnet's envelope or on a conductor).  The
+maximum is taken over the valid points only; a room in which any sampled
+point is undefined gets ``inside_envelope=True`` (the room overlaps the magnet
+or conductor itself) and fails when it has a limit.
+
+Margin.  ``margin_m`` is :func:`siting.analysis.contours.clearance` of the
+room's outline from R, the plan region where the band maximum is >= the
+room's limit: the gap between the line and the room when positive (``+inf``
+when R is empty on the grid), minus the depth of the room's deepest point
+inside R when negative (how far the line would have to recede).
+``area_over_m2`` is the area of the outline inside R.
+
+Because R comes from the grid while ``max_T`` is refined, the margin's sign is
+clamped to agree with the status: 0 when they disagree.  A conductor or magnet
+inside the prism breaks the maximum principle (|B| is unbounded near a wire);
+such rooms are recognised only when a sample lands in the undefined set.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Callable
+from dataclasses import dataclass, field
+
+import numpy as np
+import shapely
+from shapely.geometry import MultiPolygon, Polygon
+
+from siting.analysis.contours import clearance, level_region
+from siting.analysis.grid import FloorField, band_max, floor_grid
+from siting.analysis.roommax import room_maxima
+from siting.errors import SitingError
+from siting.site.model import Equipment, Room, Site
+
+#: Uncovered area below which the access region counts as contained [m^2].
+CONTAINED_TOL = 1e-6
+
+
+@dataclass(frozen=True, eq=False)
+class RoomResult:
+    """Outcome of one room's check (see the module docstring)."""
+
+    id: str
+    floor: str
+    zone: int
+    limit_T: float | None
+    max_T: float  # max |B| over the valid points of the prism [T]
+    at_m: np.ndarray  # (3,) absolute position of max_T [m]
+    margin_m: float | None  # None without a limit
+    area_over_m2: float  # plan area of the room inside its limit line; 0 without a limit
+    status: str  # "pass", "fail" or "info" (no limit)
+    inside_envelope: bool
+
+
+@dataclass(frozen=True, eq=False)
+class EquipmentResult:
+    """|B| at an item of equipment; NaN (and "fail") where the model is undefined."""
+
+    id: str
+    floor: str
+    limit_T: float
+    field_T: float
+    status: str  # "pass" or "fail"
+
+
+@dataclass(frozen=True, eq=False)
+class AccessResult:
+    """Whether the zone 3 and 4 rooms of a floor contain its access-limit region."""
+
+    floor: str
+    access_limit_T: float
+    contained: bool
+    uncovered: MultiPolygon  # part of the region outside every zone 3/4 room
+    uncovered_area_m2: float
+    uncovered_point: np.ndarray | None  # (2,) a point inside the largest uncovered piece
+
+
+@dataclass(frozen=True, eq=False)
+class SiteResult:
+    """Everything :func:`check_site` computed."""
+
+    floor_fields: dict = field(default_factory=dict)  # floor id -> FloorField
+    rooms: tuple = ()
+    equipment: tuple = ()
+    access: tuple = ()
+    failures: int = 0
+
+
+def _room_result(site, room, poly, mx, at, nan_seen, floor_field, region):
+    limit = site.room_limit(room)
+    margin, area = None, 0.0
+    if limit is None:
+        status = "info"
+    else:
+        status = "fail" if (nan_seen or not mx < limit) else "pass"
+        margin = clearance(poly, region, spacing=floor_field.grid.spacing)
+        area = float(poly.intersection(region).area) if margin < 0 else 0.0
+        if (status == "fail") != (margin < 0):
+            margin = 0.0
+    return RoomResult(
+        room.id,
+        room.floor,
+        room.zone,
+        limit,
+        float(mx),
+        np.asarray(at, dtype=np.float64),
+        margin,
+        area,
+        status,
+        bool(nan_seen),
+    )
+
+
+def _check_rooms(site, scene, rooms, floor_field, regions):
+    if not rooms:
+        return []
+    polys = [shapely.make_valid(Polygon(r.outline)) for r in rooms]
+    # a self-intersecting outline is checked over its convex hull, which contains
+    # it: the maximum found is then an upper bound (on the safe side)
+    polys = [p if isinstance(p, Polygon) else p.convex_hull for p in polys]
+    mx, at, nan_seen = room_maxima(scene, polys, floor_field)
+    out = []
+    for i, room in enumerate(rooms):
+        limit = site.room_limit(room)
+        region = None
+        if limit is not None:
+            if limit not in regions:
+                regions[limit] = level_region(floor_field, limit)
+            region = regions[limit]
+        out.append(
+            _room_result(site, room, polys[i], mx[i], at[i], nan_seen[i], floor_field, region)
+        )
+    return out
+
+
+def check_room(site: Site, scene, room: Room, floor_field: FloorField) -> RoomResult:
+    """Check one room against its limit (method: module docstring).
+
+    Parameters
+    ----------
+    site : Site
+        Gives the room's limit (``Site.room_limit``).
+    scene : object with ``magnitude(points (n, 3) [m]) -> (n,) [T]``
+        The field model, evaluated in a few vectorised calls.
+    room : Room
+        The room to check.
+    floor_field : FloorField
+        The band maximum on the room's floor.
+
+    Returns
+    -------
+    RoomResult
+    """
+    if room.floor != floor_field.grid.floor:
+        raise ValueError(
+            f"room {room.id!r} is on floor {room.floor!r}, "
+            f"the field map on {floor_field.grid.floor!r}"
+        )
+    return _check_rooms(site, scene, [room], floor_field, {})[0]
+
+
+def _check_equipment_all(scene, items):
+    if not items:
+        return []
+    b = np.asarray(scene.magnitude(np.array([e.at for e in items], dtype=np.float64)))
+    return [
+        EquipmentResult(e.id, e.floor, float(e.limit), float(v), "pass" if v < e.limit else "fail")
+        for e, v in zip(items, b, strict=True)
+    ]
+
+
+def check_equipment(site: Site, scene, equipment: Equipment) -> EquipmentResult:
+    """|B| at an item of equipment against its limit; NaN there fails."""
+    site.floor(equipment.floor)  # KeyError for an unknown floor
+    return _check_equipment_all(scene, [equipment])[0]
+
+
+def access_boundary(site: Site, floor_field: FloorField, *, region=None) -> AccessResult:
+    """Whether the zone 3 and 4 rooms of the floor contain the access-limit region.
+
+    Parameters
+    ----------
+    site : Site
+        Gives the access limit and the zone 3 and 4 rooms.
+    floor_field : FloorField
+        Band maximum on the floor to check.
+    region : shapely geometry, optional
+        :func:`level_region` at ``site.info.access_limit``, if already computed.
+
+    Returns
+    -------
+    AccessResult
+        ``contained`` when the uncovered area is below ``CONTAINED_TOL``.
+    """
+    fid = floor_field.grid.floor
+    limit = float(site.info.access_limit)
+    if region is None:
+        region = level_region(floor_field, limit)
+    rooms = [Polygon(r.outline) for r in site.rooms if r.floor == fid and r.zone in (3, 4)]
+    covered = (
+        shapely.union_all(shapely.make_valid(np.array(rooms, dtype=object))) if rooms else Polygon()
+    )
+    rest = region.difference(covered) if not region.is_empty else MultiPolygon()
+    parts = [p for p in shapely.get_parts(rest) if isinstance(p, Polygon) and p.area > 0]
+    uncovered = MultiPolygon(parts)
+    area = float(uncovered.area)
+    point = None
+    if parts:
+        q = max(parts, key=lambda p: p.area).representative_point()
+        point = np.array([q.x, q.y])
+    return AccessResult(fid, limit, area < CONTAINED_TOL, uncovered, area, point)
+
+
+def check_site(
+    site: Site,
+    scene,
+    *,
+    spacing: float | None = None,
+    progress: Callable[[str, int, int], None] | None = None,
+) -> SiteResult:
+    """Field maps, room, equipment and access checks for every floor.
+
+    Parameters
+    ----------
+    site : Site
+        The site to check.
+    scene : object with ``magnitude(points (n, 3) [m]) -> (n,) [T]``
+        The site's field model (e.g. ``siting.site.build.build_scene(site)``).
+    spacing : float, optional
+        Grid spacing [m] for every floor (default: :func:`floor_grid`'s rule).
+    progress : callable(step, i, n), optional
+        Called after each step: ``("field", i, n)`` and ``("rooms", i, n)``
+        per floor (i = 1..n floors), then ``("equipment", 1, 1)``.
+        Floors with nothing to grid (no rooms, equipment or sources) are skipped.
+
+    Returns
+    -------
+    SiteResult
+        ``failures`` counts failed rooms and equipment and floors whose access
+        region is not contained.
+    """
+    report = progress or (lambda step, i, n: None)
+    fields, rooms, access = {}, [], []
+    n = len(site.floors)
+    for i, fl in enumerate(site.floors, start=1):
+        try:
+            grid = floor_grid(site, fl.id, spacing=spacing)
+        except SitingError:
+            continue
+        ff = band_max(scene, grid)
+        fields[fl.id] = ff
+        report("field", i, n)
+        regions = {float(site.info.access_limit): level_region(ff, site.info.access_limit)}
+        rooms += _check_rooms(site, scene, [r for r in site.rooms if r.floor == fl.id], ff, regions)
+        access.append(access_boundary(site, ff, region=regions[float(site.info.access_limit)]))
+        report("rooms", i, n)
+    equipment = _check_equipment_all(scene, list(site.equipment))
+    report("equipment", 1, 1)
+    failures = (
+        sum(r.status == "fail" for r in rooms)
+        + sum(e.status == "fail" for e in equipment)
+        + sum(not a.contained for a in access)
+    )
+    return SiteResult(fields, tuple(rooms), tuple(equipment), tuple(access), int(failures))

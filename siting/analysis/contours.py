@@ -1,0 +1,192 @@
+"""Isogauss regions and lines on a floor's field map.
+
+The region of a level is the plan set where the band maximum of |B| is at or
+above the level.  It is built from contourpy's filled contours between the
+level and +inf, whose polygons come with their holes, and converted to
+shapely geometry.  The field between nodes is contourpy's linear
+interpolation along cell edges, so the line's position error falls as the
+square of the grid spacing for a smooth field.
+
+Conventions:
+
+* Nodes where the model is undefined (``FloorField.invalid``: inside a
+  magnet's envelope, on a conductor) count as above every level.  They are
+  given a huge value, so a line between such a node and a valid node below
+  the level is drawn at the valid node: the region errs on the large side by
+  less than one grid spacing there.
+* A region that reaches the edge of the grid is closed along the grid's
+  border.  The true line then lies beyond the grid; :func:`reaches_border`
+  says when this happened.
+"""
+
+from __future__ import annotations
+
+import math
+
+import contourpy
+import numpy as np
+import shapely
+from contourpy import FillType, LineType
+from shapely.geometry import MultiPolygon, Polygon
+
+from siting.analysis.grid import FloorField
+
+#: Value given to invalid nodes for contouring [T]: above any level in use.
+ABOVE_ALL = 1e30
+
+
+def _check_level(level) -> float:
+    lev = float(level)
+    if not np.isfinite(lev) or lev <= 0:
+        raise ValueError(f"level must be finite and > 0 [T]; got {level!r}")
+    return lev
+
+
+def contour_values(floor_field: FloorField) -> np.ndarray:
+    """The (ny, nx) array that is contoured: ``bmax``, invalid nodes -> ``ABOVE_ALL``."""
+    z = np.array(floor_field.bmax, dtype=np.float64)
+    z[floor_field.invalid | np.isnan(z)] = ABOVE_ALL
+    return z
+
+
+def _generator(floor_field: FloorField):
+    g = floor_field.grid
+    return contourpy.contour_generator(
+        g.x,
+        g.y,
+        contour_values(floor_field),
+        name="serial",
+        fill_type=FillType.OuterOffset,
+        line_type=LineType.Separate,
+    )
+
+
+def _as_multipolygon(geom) -> MultiPolygon:
+    """Keep only the polygonal part of a geometry, as a MultiPolygon."""
+    if geom.is_empty:
+        return MultiPolygon()
+    if isinstance(geom, Polygon):
+        return MultiPolygon([geom])
+    if isinstance(geom, MultiPolygon):
+        return geom
+    polys = [p for p in shapely.get_parts(geom) if isinstance(p, Polygon | MultiPolygon)]
+    parts = []
+    for p in polys:
+        parts.extend(shapely.get_parts(p))
+    return MultiPolygon(parts)
+
+
+def level_region(floor_field: FloorField, level: float) -> MultiPolygon:
+    """Plan region where the band maximum of |B| is >= ``level``.
+
+    Parameters
+    ----------
+    floor_field : FloorField
+        Band maximum on a floor's grid.
+    level : float
+        Field level [T], > 0.
+
+    Returns
+    -------
+    shapely.MultiPolygon
+        Polygons with their holes, in plan coordinates [m]; empty when the
+        field stays below the level on the whole grid.  Closed along the grid
+        border where the region reaches it (module docstring).
+    """
+    lev = _check_level(level)
+    points, offsets = _generator(floor_field).filled(lev, np.inf)
+    polys = []
+    for pts, off in zip(points, offsets, strict=True):
+        rings = [pts[off[i] : off[i + 1]] for i in range(len(off) - 1)]
+        rings = [r for r in rings if len(r) >= 4]
+        if rings:
+            polys.append(Polygon(rings[0], rings[1:]))
+    if not polys:
+        return MultiPolygon()
+    region = MultiPolygon(polys)
+    if not region.is_valid:
+        region = _as_multipolygon(shapely.make_valid(region))
+    return region
+
+
+def level_lines(floor_field: FloorField, level: float) -> list[np.ndarray]:
+    """The isogauss lines of ``level`` for drawing.
+
+    Parameters
+    ----------
+    floor_field : FloorField
+        Band maximum on a floor's grid.
+    level : float
+        Field level [T], > 0.
+
+    Returns
+    -------
+    list of ndarray, each (m, 2) [m]
+        Polylines; a closed line repeats its first point at the end.  Lines
+        stop at the grid border (they are not closed along it).
+    """
+    lev = _check_level(level)
+    lines = _generator(floor_field).lines(lev)
+    return [np.asarray(line, dtype=np.float64) for line in lines if len(line) >= 2]
+
+
+def region_area(floor_field: FloorField, level: float) -> float:
+    """Area of :func:`level_region` [m^2]."""
+    return float(level_region(floor_field, level).area)
+
+
+def reaches_border(floor_field: FloorField, level: float) -> bool:
+    """True when a node on the grid's border is at or above ``level``.
+
+    The region is then closed along the border and the true line lies beyond
+    the grid: widen the grid's margin to draw it.
+    """
+    lev = _check_level(level)
+    z = contour_values(floor_field)
+    edge = np.concatenate([z[0], z[-1], z[:, 0], z[:, -1]])
+    return bool(np.any(edge >= lev))
+
+
+def clearance(polygon, region, *, spacing: float) -> float:
+    """Signed clearance of a plan polygon from a region [m].
+
+    Parameters
+    ----------
+    polygon : shapely.Polygon
+        E.g. a room's outline.
+    region : shapely geometry
+        E.g. :func:`level_region` of the room's limit.
+    spacing : float
+        Sampling step [m] for the depth (below).
+
+    Returns
+    -------
+    float
+        ``+inf`` for an empty region; ``distance(polygon, region) >= 0`` when
+        they do not overlap; otherwise ``-max over q in polygon n region of
+        distance(q, boundary of region)``: the depth of the polygon's deepest
+        point inside the region, i.e. how far the region's line would have to
+        recede for the polygon to be clear.  The depth is sampled on a grid
+        of ``spacing / 2`` plus the vertices of the overlap; the distance is
+        1-Lipschitz, so the error is below ``spacing / (2 sqrt 2)``.  Where the
+        region is closed along a grid border, that border counts as its line.
+    """
+    if region.is_empty:
+        return math.inf
+    inter = polygon.intersection(region)
+    if inter.area <= 0.0:
+        return float(polygon.distance(region))
+    x0, y0, x1, y1 = inter.bounds
+    h = float(spacing) / 2
+    xx, yy = np.meshgrid(np.arange(x0, x1 + h, h), np.arange(y0, y1 + h, h))
+    inside = shapely.intersects_xy(inter, xx, yy)
+    pts = [np.column_stack([xx[inside], yy[inside]])]
+    pts += [
+        np.asarray(ring.coords)
+        for poly in shapely.get_parts(inter)
+        if isinstance(poly, Polygon)
+        for ring in (poly.exterior, *poly.interiors)
+    ]
+    boundary = region.boundary
+    shapely.prepare(boundary)
+    return -float(np.max(shapely.distance(shapely.points(np.concatenate(pts)), boundary)))

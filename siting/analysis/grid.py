@@ -1,0 +1,304 @@
+"""Plan grids per floor and the maximum of |B| over the check-height band.
+
+A floor's field map is the maximum of |B| over the heights at which people are
+checked (``site.info.check_heights`` above the floor's finished level), taken
+node by node on a regular plan grid.  Every node at every height is evaluated
+in one ``scene.magnitude`` call; the scene does its own bounded-memory chunking.
+
+Grid extent and spacing (the defaults of :func:`floor_grid`):
+
+* extent: the bounding box of the floor's room outlines and equipment points,
+  grown on every side by ``max(2 m, 10 % of the box's larger side)``.  A floor
+  with no rooms uses the plan positions of the site's field sources on that
+  floor (all floors if it has none of its own) together with its equipment.
+* spacing: the smallest room width / 8 (width = short side of the room's
+  minimum rotated rectangle), clipped to [0.05, 0.5] m (0.25 m on a floor
+  without rooms), then widened if needed so that the grid holds at most
+  ``max_points`` (400 000) plan nodes.  A spacing given by the caller is
+  honoured exactly and not capped.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+
+import numpy as np
+import shapely
+
+from siting.errors import SitingError
+from siting.site.model import Site
+
+#: Default cap on plan nodes per floor (the grid's nx * ny).
+MAX_PLAN_POINTS = 400_000
+#: Bounds of the automatic spacing [m].
+MIN_SPACING, MAX_SPACING = 0.05, 0.5
+#: Automatic spacing on a floor that has no rooms [m].
+NO_ROOM_SPACING = 0.25
+#: Nodes per smallest room width for the automatic spacing.
+NODES_PER_ROOM_WIDTH = 8
+#: Minimum margin around the floor's extent [m] and its fraction of the extent.
+MIN_MARGIN, MARGIN_FRACTION = 2.0, 0.10
+
+
+def _axis(vector, name: str) -> np.ndarray:
+    arr = np.ascontiguousarray(vector, dtype=np.float64).reshape(-1)
+    if arr.size < 2:
+        raise ValueError(f"{name} must hold at least 2 values; got {arr.size}")
+    if not np.all(np.isfinite(arr)) or not np.all(np.diff(arr) > 0):
+        raise ValueError(f"{name} must be finite and strictly increasing")
+    return arr
+
+
+@dataclass(frozen=True, eq=False)
+class PlanGrid:
+    """A regular plan grid on one floor, with the absolute heights to check.
+
+    Parameters
+    ----------
+    floor : str
+        Floor id.
+    x : array_like, shape (nx,) [m]
+        Node abscissae, strictly increasing.
+    y : array_like, shape (ny,) [m]
+        Node ordinates, strictly increasing.
+    heights : array_like, shape (k,) [m]
+        Absolute heights (site datum) of the check planes, ascending.
+    """
+
+    floor: str
+    x: np.ndarray
+    y: np.ndarray
+    heights: np.ndarray
+
+    def __post_init__(self):
+        object.__setattr__(self, "x", _axis(self.x, "x"))
+        object.__setattr__(self, "y", _axis(self.y, "y"))
+        h = np.unique(np.asarray(self.heights, dtype=np.float64).reshape(-1))
+        if h.size == 0 or not np.all(np.isfinite(h)):
+            raise ValueError("heights must hold at least one finite value")
+        object.__setattr__(self, "heights", h)
+
+    @property
+    def shape(self) -> tuple[int, int]:
+        """(ny, nx), the shape of every plan array on this grid."""
+        return (self.y.size, self.x.size)
+
+    @property
+    def spacing(self) -> float:
+        """The larger of the two node spacings [m]."""
+        return float(max(np.max(np.diff(self.x)), np.max(np.diff(self.y))))
+
+    @property
+    def band(self) -> tuple[float, float]:
+        """(lowest, highest) absolute check height [m]."""
+        return float(self.heights[0]), float(self.heights[-1])
+
+    @property
+    def bounds(self) -> tuple[float, float, float, float]:
+        """(xmin, ymin, xmax, ymax) of the grid [m]."""
+        return float(self.x[0]), float(self.y[0]), float(self.x[-1]), float(self.y[-1])
+
+    def plan_points(self) -> np.ndarray:
+        """Plan nodes, shape (ny * nx, 2) [m], row-major (y outer, x inner)."""
+        xx, yy = np.meshgrid(self.x, self.y)
+        return np.column_stack([xx.ravel(), yy.ravel()])
+
+    def points(self) -> np.ndarray:
+        """All nodes at all heights, shape (k * ny * nx, 3) [m], height outermost."""
+        plan = self.plan_points()
+        k, n = self.heights.size, plan.shape[0]
+        out = np.empty((k, n, 3))
+        out[:, :, :2] = plan
+        out[:, :, 2] = self.heights[:, None]
+        return out.reshape(k * n, 3)
+
+
+@dataclass(frozen=True, eq=False)
+class FloorField:
+    """Max of |B| over the check heights on a floor's plan grid.
+
+    Parameters
+    ----------
+    grid : PlanGrid
+    bmax : ndarray, shape (ny, nx) [T]
+        Max over the heights of |B| at the valid heights (NaN where none is).
+    invalid : ndarray of bool, shape (ny, nx)
+        True where the model is undefined at any height (inside a magnet's
+        envelope sphere or on a conductor).  Contouring counts these nodes
+        as above every level.
+    zmax : ndarray, shape (ny, nx) [m]
+        Absolute height at which ``bmax`` occurs (NaN where no height is valid).
+    """
+
+    grid: PlanGrid
+    bmax: np.ndarray
+    invalid: np.ndarray
+    zmax: np.ndarray
+
+    def __post_init__(self):
+        shape = self.grid.shape
+        for name, dtype in (("bmax", np.float64), ("invalid", bool), ("zmax", np.float64)):
+            arr = np.asarray(getattr(self, name), dtype=dtype)
+            if arr.shape != shape:
+                raise ValueError(f"{name} must have shape {shape}; got {arr.shape}")
+            object.__setattr__(self, name, arr)
+
+    def interpolate(self, xy) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+        """Bilinear interpolation of ``bmax`` at plan points.
+
+        Parameters
+        ----------
+        xy : array_like, shape (n, 2) [m]
+            Plan points; points off the grid take the value of the nearest edge.
+
+        Returns
+        -------
+        values : ndarray, shape (n,) [T]
+            Interpolated band maximum (NaN where a node of the cell has none).
+        z : ndarray, shape (n,) [m]
+            ``zmax`` of the cell's node nearest to the point.
+        undefined : ndarray of bool, shape (n,)
+            True where any node of the point's cell is invalid.
+        """
+        xy = np.asarray(xy, dtype=np.float64).reshape(-1, 2)
+        g = self.grid
+        i = np.clip(np.searchsorted(g.x, xy[:, 0]) - 1, 0, g.x.size - 2)
+        j = np.clip(np.searchsorted(g.y, xy[:, 1]) - 1, 0, g.y.size - 2)
+        tx = np.clip((xy[:, 0] - g.x[i]) / (g.x[i + 1] - g.x[i]), 0.0, 1.0)
+        ty = np.clip((xy[:, 1] - g.y[j]) / (g.y[j + 1] - g.y[j]), 0.0, 1.0)
+        b, bad = self.bmax, self.invalid
+        val = (1 - ty) * ((1 - tx) * b[j, i] + tx * b[j, i + 1]) + ty * (
+            (1 - tx) * b[j + 1, i] + tx * b[j + 1, i + 1]
+        )
+        undefined = bad[j, i] | bad[j, i + 1] | bad[j + 1, i] | bad[j + 1, i + 1]
+        z = self.zmax[j + np.rint(ty).astype(int), i + np.rint(tx).astype(int)]
+        return val, z, undefined | np.isnan(val)
+
+
+def _outline_bounds(outlines) -> np.ndarray:
+    pts = np.concatenate([np.asarray(o, dtype=np.float64).reshape(-1, 2) for o in outlines])
+    return np.array([*pts.min(axis=0), *pts.max(axis=0)])
+
+
+def _source_plan_points(site: Site, floor_id: str | None) -> list[np.ndarray]:
+    """Plan positions (m, 2) of the site's sources, on one floor or (None) all."""
+    out = []
+    for mag in site.magnets:
+        if floor_id in (None, mag.floor):
+            out.append(np.asarray(mag.center)[None, :2])
+    for coil in site.coils:
+        if floor_id in (None, coil.floor):
+            c = np.asarray(coil.center)[:2]
+            out.append(np.array([c - coil.radius, c + coil.radius]))
+    for dip in site.dipoles:
+        if floor_id in (None, dip.floor):
+            out.append(np.asarray(dip.center)[None, :2])
+    for cab in site.cables:
+        if floor_id in (None, cab.floor):
+            out.append(np.asarray(cab.path)[:, :2])
+    return out
+
+
+def _room_width(outline) -> float:
+    """Short side of the minimum rotated rectangle of a room outline [m]."""
+    rect = shapely.minimum_rotated_rectangle(shapely.Polygon(outline))
+    xy = np.asarray(rect.exterior.coords)[:4] if rect.geom_type == "Polygon" else None
+    if xy is None or len(xy) < 4:
+        return 0.0
+    sides = np.hypot(*(np.roll(xy, -1, axis=0) - xy).T)
+    return float(sides.min())
+
+
+def _nodes(lo: float, hi: float, spacing: float) -> np.ndarray:
+    """Nodes at ``spacing`` covering [lo, hi], centred on it (at least 2)."""
+    n = max(int(math.ceil((hi - lo) / spacing - 1e-9)) + 1, 2)
+    start = 0.5 * (lo + hi) - 0.5 * (n - 1) * spacing
+    return start + spacing * np.arange(n)
+
+
+def floor_grid(
+    site: Site,
+    floor_id: str,
+    *,
+    spacing: float | None = None,
+    margin: float | None = None,
+    max_points: int = MAX_PLAN_POINTS,
+) -> PlanGrid:
+    """The plan grid for one floor (extent and spacing rules: module docstring).
+
+    Parameters
+    ----------
+    site : Site
+        The site; its rooms, equipment and sources set the extent.
+    floor_id : str
+        Id of the floor to grid.
+    spacing : float, optional
+        Node spacing [m]; honoured exactly when given.
+    margin : float, optional
+        Growth of the extent on every side [m]; default
+        ``max(2 m, 10 % of the larger side)``.
+    max_points : int
+        Cap on nx * ny for the automatic spacing.
+
+    Returns
+    -------
+    PlanGrid
+        Heights are ``floor.elevation + site.info.check_heights``.
+    """
+    floor = site.floor(floor_id)
+    rooms = [r.outline for r in site.rooms if r.floor == floor_id]
+    equip = [np.asarray(e.at)[None, :2] for e in site.equipment if e.floor == floor_id]
+    pieces = list(rooms) + equip
+    if not rooms:
+        pieces += _source_plan_points(site, floor_id) or _source_plan_points(site, None)
+    if not pieces:
+        raise SitingError(f"floor {floor_id!r} has no rooms, equipment or sources to grid")
+    x0, y0, x1, y1 = _outline_bounds(pieces)
+    if margin is None:
+        margin = max(MIN_MARGIN, MARGIN_FRACTION * max(x1 - x0, y1 - y0))
+    elif not np.isfinite(margin) or margin < 0:
+        raise ValueError(f"margin must be finite and >= 0; got {margin!r}")
+    x0, y0, x1, y1 = x0 - margin, y0 - margin, x1 + margin, y1 + margin
+    if spacing is None:
+        widths = [w for w in (_room_width(o) for o in rooms) if w > 0]
+        h = min(widths) / NODES_PER_ROOM_WIDTH if widths else NO_ROOM_SPACING
+        h = float(np.clip(h, MIN_SPACING, MAX_SPACING))
+        # widen until the grid fits (the +1 node per axis makes a closed form inexact)
+        while (math.ceil((x1 - x0) / h) + 1) * (math.ceil((y1 - y0) / h) + 1) > max_points:
+            h = max(h * 1.01, math.sqrt((x1 - x0) * (y1 - y0) / max_points))
+    else:
+        h = float(spacing)
+        if not np.isfinite(h) or h <= 0:
+            raise ValueError(f"spacing must be finite and > 0; got {spacing!r}")
+    heights = floor.elevation + np.asarray(site.info.check_heights, dtype=np.float64)
+    return PlanGrid(floor_id, _nodes(x0, x1, h), _nodes(y0, y1, h), heights)
+
+
+def band_max(scene, grid: PlanGrid) -> FloorField:
+    """Max of |B| over the grid's check heights, node by node.
+
+    Parameters
+    ----------
+    scene : object with ``magnitude(points (n, 3) [m]) -> (n,) [T]``
+        Called once with all ``k * ny * nx`` nodes.
+    grid : PlanGrid
+        Plan nodes and check heights.
+
+    Returns
+    -------
+    FloorField
+    """
+    k = grid.heights.size
+    ny, nx = grid.shape
+    mag = np.asarray(scene.magnitude(grid.points()), dtype=np.float64).reshape(k, ny, nx)
+    nan = np.isnan(mag)
+    invalid = nan.any(axis=0)
+    filled = np.where(nan, -np.inf, mag)
+    idx = np.argmax(filled, axis=0)
+    bmax = np.take_along_axis(filled, idx[None], axis=0)[0]
+    all_nan = nan.all(axis=0)
+    bmax[all_nan] = np.nan
+    zmax = grid.heights[idx]
+    zmax[all_nan] = np.nan
+    return FloorField(grid, bmax, invalid, zmax)

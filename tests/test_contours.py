@@ -1,0 +1,147 @@
+"""Isogauss regions and lines (siting.analysis.contours)."""
+
+import numpy as np
+import pytest
+from scipy.constants import mu_0
+from scipy.optimize import brentq
+from shapely.geometry import Point, Polygon, box
+
+from siting.analysis.contours import level_lines, level_region, reaches_border, region_area
+from siting.analysis.grid import FloorField, PlanGrid, band_max
+from siting.fields.scene import Scene
+from tests.test_grid import PointDipole
+
+M = 1.0e4  # dipole moment [A m^2]
+LEVEL = 5e-4  # 0.5 mT
+# Jackson, Classical Electrodynamics, 3rd ed. (1999), eq. 5.56: on the equator of a
+# dipole m (cos theta = 0), |B| = mu0 m / (4 pi r^3), so the 0.5 mT line is the circle
+R0 = (mu_0 * M / (4 * np.pi * LEVEL)) ** (1 / 3)
+C = np.array([0.1, 0.05, 0.0])  # off the grid's nodes on purpose
+
+
+def equator_field(h, *, envelope=0.5):
+    x = np.arange(-4.0, 4.0 + h / 2, h)
+    grid = PlanGrid("g", x, x, [0.0])  # one check plane: the dipole's equator
+    return band_max(Scene([PointDipole(C, [0.0, 0.0, M], envelope=envelope)]), grid)
+
+
+def synthetic(f, h=0.05, half=4.0):
+    """A FloorField whose band maximum is f(x, y), given directly."""
+    x = np.arange(-half, half + h / 2, h)
+    grid = PlanGrid("g", x, x, [1.0])
+    X, Y = np.meshgrid(x, x)
+    b = f(X, Y)
+    return FloorField(grid, b, np.zeros(b.shape, bool), np.ones(b.shape))
+
+
+def test_dipole_region_is_the_equatorial_circle():
+    ff = equator_field(0.1)
+    region = level_region(ff, LEVEL)
+    assert len(region.geoms) == 1
+    # the envelope (NaN) at the centre counts as above the level: no hole there
+    assert len(region.geoms[0].interiors) == 0
+    assert region.area == pytest.approx(np.pi * R0**2, rel=0.01)
+    assert np.sqrt(region.area / np.pi) == pytest.approx(R0, rel=0.01)
+    q = region.centroid
+    assert np.hypot(q.x - C[0], q.y - C[1]) < 0.01 * R0
+    assert region_area(ff, LEVEL) == pytest.approx(region.area)
+    lines = level_lines(ff, LEVEL)
+    assert len(lines) == 1 and np.allclose(lines[0][0], lines[0][-1])  # one closed line
+    r = np.hypot(lines[0][:, 0] - C[0], lines[0][:, 1] - C[1])
+    np.testing.assert_allclose(r, R0, rtol=0.01)
+    assert not reaches_border(ff, LEVEL)
+
+
+def test_dipole_region_converges_at_second_order():
+    spacings = np.array([0.4, 0.2, 0.1, 0.05])
+    err = np.array(
+        [abs(region_area(equator_field(h), LEVEL) / (np.pi * R0**2) - 1) for h in spacings]
+    )
+    # measured: 2.5e-2, 7.7e-3, 1.8e-3, 4.5e-4 -> slope about 1.9 (linear interpolation
+    # of a smooth field along cell edges is second order in the spacing)
+    slope = np.polyfit(np.log(spacings), np.log(err), 1)[0]
+    assert 1.7 < slope < 2.3
+    assert np.all(np.diff(err) < 0)
+
+
+def ring(x, y, rc=2.0, w=0.8):
+    return 1e-3 * np.exp(-(((np.hypot(x, y) - rc) / w) ** 2))
+
+
+def test_annulus_has_a_hole_of_the_right_area():
+    ff = synthetic(ring)
+    region = level_region(ff, LEVEL)
+    # 1e-3 exp(-((r - 2)/0.8)^2) >= 5e-4  <=>  |r - 2| <= 0.8 sqrt(ln 2)
+    d = 0.8 * np.sqrt(np.log(2.0))
+    r_in, r_out = 2.0 - d, 2.0 + d
+    assert len(region.geoms) == 1
+    poly = region.geoms[0]
+    assert len(poly.interiors) == 1
+    hole = np.pi * r_in**2  # area of a disc (elementary geometry)
+    assert Polygon(poly.interiors[0]).area == pytest.approx(hole, rel=0.01)
+    assert Polygon(poly.exterior).area == pytest.approx(np.pi * r_out**2, rel=0.01)
+    assert region.area == pytest.approx(np.pi * (r_out**2 - r_in**2), rel=0.01)
+    assert not region.contains(region.centroid)  # the centre is in the hole
+    assert len(level_lines(ff, LEVEL)) == 2
+
+
+def test_island_inside_a_hole_is_a_separate_polygon():
+    # a central bump of radius sqrt(ln 2) * 0.5 at the level, inside the ring's hole
+    ff = synthetic(lambda x, y: ring(x, y) + 1e-3 * np.exp(-((np.hypot(x, y) / 0.5) ** 2)))
+    region = level_region(ff, LEVEL)
+    assert region.is_valid and len(region.geoms) == 2
+    holes = sorted(len(p.interiors) for p in region.geoms)
+    assert holes == [0, 1]
+    island = min(region.geoms, key=lambda p: p.area)
+    # the island's edge is the root of the radial profile at the level (brentq)
+    r_isl = brentq(lambda r: ring(r, 0.0) + 1e-3 * np.exp(-((r / 0.5) ** 2)) - LEVEL, 0.1, 1.2)
+    assert island.area == pytest.approx(np.pi * r_isl**2, rel=0.01)
+
+
+def test_region_touching_the_border_is_closed_along_it():
+    # bmax = 1e-3 * (x + 4) / 8 is linear, so linear interpolation is exact: the region
+    # bmax >= 0.5 mT is the half of the grid with x >= 0, a rectangle 4 m x 8 m
+    ff = synthetic(lambda x, y: 1e-3 * (x + 4.0) / 8.0)
+    region = level_region(ff, LEVEL)
+    assert region.area == pytest.approx(32.0, rel=1e-9)
+    assert region.bounds == pytest.approx((0.0, -4.0, 4.0, 4.0), abs=1e-9)
+    assert reaches_border(ff, LEVEL)
+    (line,) = level_lines(ff, LEVEL)  # the open line x = 0, not closed along the border
+    np.testing.assert_allclose(line[:, 0], 0.0, atol=1e-12)
+
+
+def test_invalid_nodes_count_as_above():
+    x = np.linspace(0.0, 10.0, 11)  # 1 m cells
+    grid = PlanGrid("g", x, x, [1.0])
+    invalid = np.zeros((11, 11), bool)
+    invalid[4:7, 4:7] = True  # nodes 4..6: a 2 m x 2 m square
+    b = np.where(invalid, np.nan, 1e-6)
+    region = level_region(FloorField(grid, b, invalid, np.ones((11, 11))), LEVEL)
+    # the line lies at the last valid node: the 4 m x 4 m square of nodes 3..7, less
+    # the corner cells' halves cut by the diagonal (marching squares): 16 - 4 * 0.5
+    assert region.area == pytest.approx(14.0, abs=1e-6)
+    assert region.contains(box(4.0, 4.0, 6.0, 6.0))
+
+
+def test_empty_region_and_bad_level():
+    ff = synthetic(ring)
+    assert level_region(ff, 2e-3).is_empty and region_area(ff, 2e-3) == 0.0
+    assert level_lines(ff, 2e-3) == []
+    with pytest.raises(ValueError, match="level"):
+        level_region(ff, 0.0)
+    with pytest.raises(ValueError, match="level"):
+        level_lines(ff, np.nan)
+
+
+def test_clearance_of_rectangles_from_a_disc():
+    from siting.analysis.contours import clearance
+
+    disc = Point(0.0, 0.0).buffer(1.0, quad_segs=256)
+    # distance from a unit disc to a rectangle: distance to its centre minus 1
+    assert clearance(box(2.0, -1.0, 3.0, 1.0), disc, spacing=0.05) == pytest.approx(1.0, abs=1e-4)
+    # overlap: the deepest rectangle point in the disc is its point nearest the centre
+    depth = clearance(box(0.4, -0.2, 3.0, 0.2), disc, spacing=0.05)
+    assert depth == pytest.approx(-0.6, abs=0.05 / (2 * np.sqrt(2)))
+    # a rectangle covering the disc: depth = the disc's radius (its centre is inside)
+    assert clearance(box(-2, -2, 2, 2), disc, spacing=0.05) == pytest.approx(-1.0, abs=0.02)
+    assert clearance(box(0, 0, 1, 1), Polygon(), spacing=0.05) == np.inf
