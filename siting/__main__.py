@@ -1,0 +1,3 @@
+from siting.cli import main
+
+main()
