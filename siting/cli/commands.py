@@ -52,19 +52,6 @@ def _margin_text(margin, unit) -> str:
     return format_length(margin, unit)
 
 
-def _max_text(site, room, unit) -> str:
-    """The room maximum for display; above the highest published level when the room holds a
-    magnet (close to the cryostat a fringe model fitted to the extents is not reliable)."""
-    from siting.site.units import format_field
-
-    if not room.inside_envelope:
-        return format_field(room.max_T, unit)
-    top = [e.level for m in site.magnets if m.floor == room.floor for e in m.extents]
-    if top and room.max_T > max(top):
-        return f"> {format_field(max(top), unit)} (magnet inside)"
-    return f"{format_field(room.max_T, unit)} (magnet inside)"
-
-
 def _has_line(result, access) -> bool:
     """Whether the access-limit region is non-empty on that floor's grid."""
     from siting.analysis.contours import level_region
@@ -73,7 +60,8 @@ def _has_line(result, access) -> bool:
 
 
 def _print_tables(site, result) -> None:
-    from siting.site.units import format_field, format_length, si_factor
+    from siting.export.labels import room_max_text
+    from siting.site.units import format_field, si_factor
 
     fu, lu = site.info.field_unit, site.info.length_unit
     scale = si_factor(lu, "length")
@@ -92,7 +80,7 @@ def _print_tables(site, result) -> None:
             r.floor,
             str(r.zone),
             format_field(r.limit_T, fu) if r.limit_T is not None else "none",
-            _max_text(site, r, fu),
+            room_max_text(site, r, fu),
             at,
             _margin_text(r.margin_m, lu),
             f"{r.area_over_m2:.2f} m2" if r.area_over_m2 else "-",

@@ -28,6 +28,22 @@ def field_text(value_t: float | None, units: str) -> str:
     return format_field(value_t, units)
 
 
+def room_max_text(site, room_result, units: str) -> str:
+    """A room's maximum field for display.
+
+    When the room holds a magnet whose fringe model was fitted to published
+    extents, values above the highest published level are shown as "> level":
+    close to the cryostat such a model is not reliable, only its lines at and
+    below the published levels are.
+    """
+    if not room_result.inside_envelope:
+        return field_text(room_result.max_T, units)
+    top = [e.level for m in site.magnets if m.floor == room_result.floor for e in m.extents]
+    if top and room_result.max_T > max(top):
+        return f"> {field_text(max(top), units)} (magnet inside)"
+    return f"{field_text(room_result.max_T, units)} (magnet inside)"
+
+
 def display_units(site, units: str | None) -> str:
     """The unit choice for a drawing: ``units``, else the site's field unit.
 

@@ -16,7 +16,14 @@ from shapely.geometry import Polygon
 
 from siting.analysis.contours import contour_values, level_lines, level_region
 from siting.export import shapes
-from siting.export.labels import Candidate, LabelPlacer, field_text, ring_offsets, zone_text
+from siting.export.labels import (
+    Candidate,
+    LabelPlacer,
+    field_text,
+    ring_offsets,
+    room_max_text,
+    zone_text,
+)
 from siting.export.palette import FAIL, LINE, PASS, ROOM_EDGE, band_colours
 
 HALO = [patheffects.withStroke(linewidth=2.2, foreground="white")]
@@ -130,9 +137,8 @@ def draw_rooms(ax, site, result, floor_id, placer, units, font, fail_ids) -> Non
         lines = [room.name, zone_text(room.zone) + (
             f", limit {field_text(lim, units)}" if lim is not None else ", no limit")]
         if res is not None:
-            mx = field_text(res.max_T, units)
             state = {"fail": " FAIL", "pass": " pass"}.get(res.status, "")
-            lines.append(f"max {mx}" + (" (magnet inside)" if res.inside_envelope else "") + state)
+            lines.append(f"max {room_max_text(site, res, units)}" + state)
         p = shapes.label_point(Polygon(room.outline))
         cands = [Candidate(p[0], p[1], dx, dy) for dx, dy in
                  ((0, 0), (0, 5), (0, -5), (6, 0), (-6, 0), (0, 9), (0, -9))]

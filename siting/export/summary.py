@@ -13,7 +13,7 @@ from dataclasses import dataclass
 import numpy as np
 from matplotlib.patches import Rectangle
 
-from siting.export.labels import field_text, status_text, zone_text
+from siting.export.labels import field_text, room_max_text, status_text, zone_text
 from siting.export.layout import EM_ADVANCE, PT_MM, Rect
 from siting.export.palette import FAIL
 from siting.export.titleblock import LINE_H, block_height, text_block
@@ -100,7 +100,7 @@ def room_table(site, result, units: str) -> Table:
         rows.append((
             r.id, names.get(r.id, ""), r.floor, zone_text(r.zone),
             field_text(r.limit_T, units) if r.limit_T is not None else "none",
-            field_text(r.max_T, units) + (" (magnet inside)" if r.inside_envelope else ""),
+            room_max_text(site, r, units),
             at,
             format_length(r.margin_m, lu)
             if r.margin_m is not None and np.isfinite(r.margin_m) else "-",
