@@ -47,6 +47,7 @@ from siting.fields.fringe_fit import (
     pair_field_rz,
     parse_extents,
 )
+from siting.fields.loop import loops_field
 from siting.site.model import Extent
 
 __all__ = ["ENVELOPE_MARGIN", "ExtentResidual", "FringeModel", "multipole_field"]
@@ -240,18 +241,27 @@ class FringeModel:
     def field(self, points) -> np.ndarray:
         """B at ``points`` (n, 3) [m] -> (n, 3) [T]; NaN inside the envelope.
 
+        The fitted loops are evaluated with the exact loop kernel
+        :func:`siting.fields.loop.loops_field`.
+
         References
         ----------
         W. R. Smythe, *Static and Dynamic Electricity*, 3rd ed., 1968, sec. 7.10.
         """
         pts = as_points(points)
-        rot, loc, rho, z = self._local(pts)
-        b_rho, b_z = pair_field_rz(self.radius, self.offset, self.current, rho, z)
-        with np.errstate(divide="ignore", invalid="ignore"):
-            scale = np.where(rho > 0.0, b_rho / rho, 0.0)
-        b_loc = np.stack([scale * loc[:, 0], scale * loc[:, 1], b_z], axis=1)
-        out = b_loc @ rot
-        out[np.hypot(rho, z) < self.envelope] = np.nan
+        k = len(self.radius)
+        offsets = np.concatenate([self.offset, -self.offset])
+        centers = self.center[None, :] + offsets[:, None] * self.axis[None, :]
+        axes = np.broadcast_to(self.axis, (2 * k, 3))
+        out = loops_field(
+            pts,
+            centers,
+            axes,
+            np.concatenate([self.radius, self.radius]),
+            np.concatenate([self.current, self.current]),
+        )
+        rel = pts - self.center
+        out[np.einsum("ij,ij->i", rel, rel) < self.envelope**2] = np.nan
         return out
 
     def magnitude(self, points) -> np.ndarray:
