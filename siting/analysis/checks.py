@@ -97,6 +97,7 @@ class AccessResult:
     uncovered: MultiPolygon  # part of the region outside every zone 3/4 room
     uncovered_area_m2: float
     uncovered_point: np.ndarray | None  # (2,) a point inside the largest uncovered piece
+    line_area_m2: float = 0.0  # area of the access-limit region on the floor (0: no line)
 
 
 @dataclass(frozen=True, eq=False)
@@ -232,7 +233,9 @@ def access_boundary(site: Site, floor_field: FloorField, *, region=None) -> Acce
     if parts:
         q = max(parts, key=lambda p: p.area).representative_point()
         point = np.array([q.x, q.y])
-    return AccessResult(fid, limit, area < CONTAINED_TOL, uncovered, area, point)
+    return AccessResult(
+        fid, limit, area < CONTAINED_TOL, uncovered, area, point, float(region.area)
+    )
 
 
 def check_site(

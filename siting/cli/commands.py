@@ -52,13 +52,6 @@ def _margin_text(margin, unit) -> str:
     return format_length(margin, unit)
 
 
-def _has_line(result, access) -> bool:
-    """Whether the access-limit region is non-empty on that floor's grid."""
-    from siting.analysis.contours import level_region
-
-    return not level_region(result.floor_fields[access.floor], access.access_limit_T).is_empty
-
-
 def _print_tables(site, result) -> None:
     from siting.export.labels import room_max_text
     from siting.site.units import format_field, si_factor
@@ -96,7 +89,7 @@ def _print_tables(site, result) -> None:
                        "FAIL" if e.status == "fail" else "pass")
         out.print(eq)
     for a in result.access:
-        if a.contained and a.uncovered_area_m2 == 0 and not _has_line(result, a):
+        if a.line_area_m2 == 0:
             out.print(f"floor {a.floor}: no {format_field(a.access_limit_T, fu)} line on this "
                       "floor.")
         elif a.contained:

@@ -64,7 +64,7 @@ def level_meaning(level: float, access: float) -> tuple[str, str]:
             return meaning, source
     if abs(level - access) <= TOL:
         return ("controlled-access boundary used for this site", "IEC 60601-2-33 (site choice)")
-    if level <= 1.0e-3:
+    if level < 0.5e-3:
         return ("rule of thumb for field-sensitive equipment (e.g. CT, PET, gamma cameras, "
                 "image intensifiers, electron microscopes at lower fields)", "common practice")
     return ("level chosen in the site file", "site file")
@@ -134,7 +134,9 @@ def summary_blocks(site, result, units: str) -> list:
     access = []
     for a in result.access:
         lim = field_text(a.access_limit_T, units)
-        if a.contained:
+        if a.line_area_m2 == 0:
+            access.append(f"Floor {a.floor}: no {lim} line on this floor.")
+        elif a.contained:
             access.append(f"Floor {a.floor}: the {lim} line lies within zone 3 and 4 rooms.")
         else:
             access.append(f"Floor {a.floor}: the {lim} line leaves the zone 3 and 4 rooms over "
