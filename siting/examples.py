@@ -1,7 +1,9 @@
 """Where the shipped example site files are (``rooms/`` in the source tree).
 
-A regular install puts them in the package as ``siting.rooms``; an editable
-install leaves them in the checkout's ``rooms/`` folder, next to ``siting/``.
+A regular install puts them in the package as ``siting.rooms`` (a folder of
+data, not a Python package, so importlib.resources sees it as a namespace);
+an editable install leaves them in the checkout's ``rooms/`` folder, next to
+``siting/``.
 """
 
 from __future__ import annotations
@@ -13,13 +15,13 @@ from pathlib import Path
 def examples_dir() -> Path:
     """The folder holding the example ``*.toml`` site files."""
     try:
-        folder = Path(str(files("siting.rooms")))
-        if any(folder.glob("*.toml")):
-            return folder
-    except ModuleNotFoundError:
+        for entry in files("siting.rooms").iterdir():
+            if entry.name.endswith(".toml"):
+                return Path(str(entry)).parent
+    except (ModuleNotFoundError, FileNotFoundError):
         pass
     folder = Path(__file__).resolve().parents[1] / "rooms"
-    if not folder.is_dir():
+    if not any(folder.glob("*.toml")):
         raise FileNotFoundError("the example site files (rooms/) are not installed")
     return folder
 

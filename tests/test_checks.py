@@ -13,7 +13,7 @@ from siting.analysis.checks import access_boundary, check_equipment, check_room,
 from siting.analysis.grid import band_max, floor_grid
 from siting.fields.scene import Scene
 from siting.site.model import Equipment, Floor, Room, Site, SiteInfo
-from tests.test_grid import Counting, PointDipole
+from test_grid import Counting, PointDipole
 
 M = 1.0e4  # [A m^2]
 ACCESS = 5e-4  # 0.5 mT

@@ -9,7 +9,7 @@ from shapely.geometry import Point, Polygon, box
 from siting.analysis.contours import level_lines, level_region, reaches_border, region_area
 from siting.analysis.grid import FloorField, PlanGrid, band_max
 from siting.fields.scene import Scene
-from tests.test_grid import PointDipole
+from test_grid import PointDipole
 
 M = 1.0e4  # dipole moment [A m^2]
 LEVEL = 5e-4  # 0.5 mT
