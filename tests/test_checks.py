@@ -8,12 +8,12 @@ from hypothesis import strategies as st
 from scipy.constants import mu_0
 from scipy.integrate import quad
 from shapely.geometry import Point, Polygon
+from test_grid import Counting, PointDipole
 
 from siting.analysis.checks import access_boundary, check_equipment, check_room, check_site
 from siting.analysis.grid import band_max, floor_grid
 from siting.fields.scene import Scene
 from siting.site.model import Equipment, Floor, Room, Site, SiteInfo
-from test_grid import Counting, PointDipole
 
 M = 1.0e4  # [A m^2]
 ACCESS = 5e-4  # 0.5 mT

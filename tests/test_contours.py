@@ -5,11 +5,11 @@ import pytest
 from scipy.constants import mu_0
 from scipy.optimize import brentq
 from shapely.geometry import Point, Polygon, box
+from test_grid import PointDipole
 
 from siting.analysis.contours import level_lines, level_region, reaches_border, region_area
 from siting.analysis.grid import FloorField, PlanGrid, band_max
 from siting.fields.scene import Scene
-from test_grid import PointDipole
 
 M = 1.0e4  # dipole moment [A m^2]
 LEVEL = 5e-4  # 0.5 mT
