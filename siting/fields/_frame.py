@@ -72,3 +72,35 @@ def finite(value, name: str) -> float:
     if not np.isfinite(val):
         raise ValueError(f"{name} must be finite; got {value!r}")
     return val
+
+
+def as_rows(value, k: int | None, name: str) -> np.ndarray:
+    """``value`` as a finite float64 array (k, 3); a single 3-vector is one row."""
+    arr = np.ascontiguousarray(value, dtype=np.float64)
+    if arr.ndim == 1 and arr.shape[0] == 3 and k in (None, 1):
+        arr = arr.reshape(1, 3)
+    if arr.ndim != 2 or arr.shape[1] != 3 or (k is not None and arr.shape[0] != k):
+        want = "(k, 3)" if k is None else f"({k}, 3)"
+        raise ValueError(f"{name} must have shape {want}; got {arr.shape}")
+    if not np.all(np.isfinite(arr)):
+        raise ValueError(f"{name} must be finite")
+    return arr
+
+
+def as_axes(axes, k: int) -> np.ndarray:
+    """``axes`` (k, 3) normalised row-wise; zero rows are an error."""
+    w = as_rows(axes, k, "axes")
+    norms = np.linalg.norm(w, axis=1)
+    if np.any(norms == 0.0):
+        raise ValueError(f"axes must be non-zero vectors; zero rows {np.flatnonzero(norms == 0)}")
+    return np.ascontiguousarray(w / norms[:, None])
+
+
+def as_values(value, k: int, name: str) -> np.ndarray:
+    """``value`` as a finite float64 array (k,)."""
+    arr = np.ascontiguousarray(value, dtype=np.float64).reshape(-1)
+    if arr.shape != (k,):
+        raise ValueError(f"{name} must have shape ({k},); got {arr.shape}")
+    if not np.all(np.isfinite(arr)):
+        raise ValueError(f"{name} must be finite")
+    return arr

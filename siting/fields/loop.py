@@ -50,7 +50,16 @@ from siting.fields._elliptic import (
     MAX_ITERATIONS,
     bracket_series,
 )
-from siting.fields._frame import as_points, as_vector, finite, positive_finite, unit_axis
+from siting.fields._frame import (
+    as_axes,
+    as_points,
+    as_rows,
+    as_values,
+    as_vector,
+    finite,
+    positive_finite,
+    unit_axis,
+)
 
 #: Distance from the wire, relative to the radius, below which the field is NaN.
 WIRE_TOLERANCE = 1e-12
@@ -210,36 +219,6 @@ def _loops_kernel(points, centers, axes, radii, coef):
     return out
 
 
-def _as_rows(value, k: int | None, name: str) -> np.ndarray:
-    arr = np.ascontiguousarray(value, dtype=np.float64)
-    if arr.ndim == 1 and arr.shape[0] == 3 and k in (None, 1):
-        arr = arr.reshape(1, 3)
-    if arr.ndim != 2 or arr.shape[1] != 3 or (k is not None and arr.shape[0] != k):
-        want = "(k, 3)" if k is None else f"({k}, 3)"
-        raise ValueError(f"{name} must have shape {want}; got {arr.shape}")
-    if not np.all(np.isfinite(arr)):
-        raise ValueError(f"{name} must be finite")
-    return arr
-
-
-def _as_axes(axes, k: int) -> np.ndarray:
-    """``axes`` (k, 3) normalised row-wise; zero rows are an error."""
-    w = _as_rows(axes, k, "axes")
-    norms = np.linalg.norm(w, axis=1)
-    if np.any(norms == 0.0):
-        raise ValueError(f"axes must be non-zero vectors; zero rows {np.flatnonzero(norms == 0)}")
-    return np.ascontiguousarray(w / norms[:, None])
-
-
-def _as_values(value, k: int, name: str) -> np.ndarray:
-    arr = np.ascontiguousarray(value, dtype=np.float64).reshape(-1)
-    if arr.shape != (k,):
-        raise ValueError(f"{name} must have shape ({k},); got {arr.shape}")
-    if not np.all(np.isfinite(arr)):
-        raise ValueError(f"{name} must be finite")
-    return arr
-
-
 def loops_field(points, centers, axes, radii, ampere_turns) -> np.ndarray:
     """Total field of ``k`` circular loops (thin coils) at ``n`` points.
 
@@ -269,13 +248,13 @@ def loops_field(points, centers, axes, radii, ampere_turns) -> np.ndarray:
     cancellation-free form described in this module's docstring.
     """
     pts = as_points(points)
-    c = _as_rows(centers, None, "centers")
+    c = as_rows(centers, None, "centers")
     k = c.shape[0]
-    w = _as_axes(axes, k)
-    r = _as_values(radii, k, "radii")
+    w = as_axes(axes, k)
+    r = as_values(radii, k, "radii")
     if np.any(r <= 0.0):
         raise ValueError(f"radii must be > 0; got {r[r <= 0.0].tolist()}")
-    nit = _as_values(ampere_turns, k, "ampere_turns")
+    nit = as_values(ampere_turns, k, "ampere_turns")
     if k == 0 or pts.shape[0] == 0:
         return np.zeros_like(pts)
     return _loops_kernel(pts, c, w, r, nit * _MU0_OVER_PI)

@@ -53,8 +53,16 @@ from numba import njit, prange
 from scipy.constants import mu_0
 
 from siting.fields._elliptic import cel, ellip_bd
-from siting.fields._frame import as_points, as_vector, finite, positive_finite, unit_axis
-from siting.fields.loop import _as_axes, _as_rows, _as_values
+from siting.fields._frame import (
+    as_axes,
+    as_points,
+    as_rows,
+    as_values,
+    as_vector,
+    finite,
+    positive_finite,
+    unit_axis,
+)
 
 #: Relative distance from the current sheet (in radii) treated as on the sheet.
 SHEET_TOLERANCE = 1e-12
@@ -86,6 +94,19 @@ def _sheet_local(rho, z, a, b, b0):
     return b0 * b_rho, b0 * a / ap * b_z
 
 
+@njit(inline="always", cache=True)
+def _cylindrical(points, i, centers, axes, j):
+    """Axial coordinate, radial vector and its length of point ``i`` about source ``j``."""
+    dx = points[i, 0] - centers[j, 0]
+    dy = points[i, 1] - centers[j, 1]
+    dz = points[i, 2] - centers[j, 2]
+    z = dx * axes[j, 0] + dy * axes[j, 1] + dz * axes[j, 2]
+    ux = dx - z * axes[j, 0]
+    uy = dy - z * axes[j, 1]
+    uz = dz - z * axes[j, 2]
+    return z, ux, uy, uz, math.sqrt(ux * ux + uy * uy + uz * uz)
+
+
 @njit(parallel=True, cache=True, fastmath=False, error_model="numpy")
 def _solenoids_kernel(points, centers, axes, radii, half_lengths, b0):
     """Sum of ``k`` thin-solenoid fields at ``n`` points."""
@@ -97,17 +118,8 @@ def _solenoids_kernel(points, centers, axes, radii, half_lengths, b0):
         by = 0.0
         bz = 0.0
         for j in range(k):
-            wx = axes[j, 0]
-            wy = axes[j, 1]
-            wz = axes[j, 2]
-            dx = points[i, 0] - centers[j, 0]
-            dy = points[i, 1] - centers[j, 1]
-            dz = points[i, 2] - centers[j, 2]
-            z = dx * wx + dy * wy + dz * wz
-            ux = dx - z * wx
-            uy = dy - z * wy
-            uz = dz - z * wz
-            rho = math.sqrt(ux * ux + uy * uy + uz * uz)
+            wx, wy, wz = axes[j, 0], axes[j, 1], axes[j, 2]
+            z, ux, uy, uz, rho = _cylindrical(points, i, centers, axes, j)
             b_rho, b_ax = _sheet_local(rho, z, radii[j], half_lengths[j], b0[j])
             s = b_rho / rho if rho > 0.0 else 0.0 * b_rho
             bx += s * ux + b_ax * wx
@@ -135,17 +147,8 @@ def _thick_kernel(points, centers, axes, inner, outer, half_lengths, b0_density,
         by = 0.0
         bz = 0.0
         for j in range(k):
-            wx = axes[j, 0]
-            wy = axes[j, 1]
-            wz = axes[j, 2]
-            dx = points[i, 0] - centers[j, 0]
-            dy = points[i, 1] - centers[j, 1]
-            dz = points[i, 2] - centers[j, 2]
-            z = dx * wx + dy * wy + dz * wz
-            ux = dx - z * wx
-            uy = dy - z * wy
-            uz = dz - z * wz
-            rho = math.sqrt(ux * ux + uy * uy + uz * uz)
+            wx, wy, wz = axes[j, 0], axes[j, 1], axes[j, 2]
+            z, ux, uy, uz, rho = _cylindrical(points, i, centers, axes, j)
             a1 = inner[j]
             a2 = outer[j]
             hb = half_lengths[j]
@@ -211,19 +214,19 @@ def thick_solenoids_field(
     radius (Golub and Welsch, Math. Comp. 23, 1969, 221-230).
     """
     pts = as_points(points)
-    c = _as_rows(centers, None, "centers")
+    c = as_rows(centers, None, "centers")
     k = c.shape[0]
-    w = _as_axes(axes, k)
-    a1 = _as_values(inner_radii, k, "inner_radii")
-    a2 = _as_values(outer_radii, k, "outer_radii")
+    w = as_axes(axes, k)
+    a1 = as_values(inner_radii, k, "inner_radii")
+    a2 = as_values(outer_radii, k, "outer_radii")
     if np.any(a1 <= 0.0) or np.any(a2 <= a1):
         raise ValueError(
             f"radii must satisfy 0 < inner_radii < outer_radii; got {a1.tolist()}, {a2.tolist()}"
         )
-    ln = _as_values(lengths, k, "lengths")
+    ln = as_values(lengths, k, "lengths")
     if np.any(ln <= 0.0):
         raise ValueError(f"lengths must be > 0; got {ln[ln <= 0.0].tolist()}")
-    nit = _as_values(ampere_turns, k, "ampere_turns")
+    nit = as_values(ampere_turns, k, "ampere_turns")
     nodes = _check_nodes(radial_nodes)
     if k == 0 or pts.shape[0] == 0:
         return np.zeros_like(pts)
@@ -266,16 +269,16 @@ def solenoids_field(points, centers, axes, radii, lengths, ampere_turns) -> np.n
     Derby and Olbert, Am. J. Phys. 78 (2010) 229-235.
     """
     pts = as_points(points)
-    c = _as_rows(centers, None, "centers")
+    c = as_rows(centers, None, "centers")
     k = c.shape[0]
-    w = _as_axes(axes, k)
-    r = _as_values(radii, k, "radii")
+    w = as_axes(axes, k)
+    r = as_values(radii, k, "radii")
     if np.any(r <= 0.0):
         raise ValueError(f"radii must be > 0; got {r[r <= 0.0].tolist()}")
-    ln = _as_values(lengths, k, "lengths")
+    ln = as_values(lengths, k, "lengths")
     if np.any(ln <= 0.0):
         raise ValueError(f"lengths must be > 0; got {ln[ln <= 0.0].tolist()}")
-    nit = _as_values(ampere_turns, k, "ampere_turns")
+    nit = as_values(ampere_turns, k, "ampere_turns")
     if k == 0 or pts.shape[0] == 0:
         return np.zeros_like(pts)
     b0 = mu_0 * nit / ln / math.pi
