@@ -173,6 +173,24 @@ def test_room_over_the_magnet_is_flagged():
     assert ra.max_T <= mu_0 * M / (4 * np.pi * 0.3**3) * (1 + 1e-9)
 
 
+def test_room_holding_a_small_source_fails_on_the_grid_value():
+    # A weak dipole inside a room's prism: the field is unbounded at the source, so
+    # the boundary search alone would miss it; the nearest grid node in the dipole's
+    # equatorial plane (the band holds z = 1 m) lies within h / sqrt(2) in plan, where
+    # |B| >= mu0 m / (4 pi (h / sqrt(2))^3) (Jackson 1999, eq. 5.56).
+    from siting.fields.dipole import Dipole
+
+    m, h = 1.0, 0.1
+    scene = Scene((Dipole([0.03, 0.02, 1.0], [0, 0, m]),))
+    r = room("tx", rect(-1, -1, 1, 1), zone=1)
+    site = make_site([r], heights=(0.0, 1.0, 2.0))
+    ff = band_max(scene, floor_grid(site, "g", spacing=h))
+    res = check_room(site, scene, r, ff)
+    assert res.status == "fail" and res.margin_m < 0
+    assert res.max_T >= mu_0 * m / (4 * np.pi * (h / np.sqrt(2)) ** 3)
+    assert res.max_T == pytest.approx(ff.bmax.max())
+
+
 def test_equipment_against_the_dipole_formula():
     p = np.array([1.2, -0.7, 0.9])
     r = np.linalg.norm(p)

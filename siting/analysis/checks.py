@@ -38,7 +38,10 @@ inside R when negative (how far the line would have to recede).
 Because R comes from the grid while ``max_T`` is refined, the margin's sign is
 clamped to agree with the status: 0 when they disagree.  A conductor or magnet
 inside the prism breaks the maximum principle (|B| is unbounded near a wire);
-such rooms are recognised only when a sample lands in the undefined set.
+such rooms are recognised only when a sample lands in the undefined set.  With
+a source inside the prism the largest grid-node value of the band maximum is
+kept when it exceeds the boundary search: the field is unbounded at such a
+source, so that value depends on the grid spacing and only says "over".
 """
 
 from __future__ import annotations

@@ -132,9 +132,14 @@ def _top(values, keep, n):
     return idx[np.argsort(values[idx])[::-1][:n]]
 
 
-def _face_starts(polys, floor_field, nan_seen):
+def _face_starts(polys, floor_field, nan_seen, node_best, node_at):
     """Starts (x, y, z) and rooms for the face search: the local maxima of the
-    band maximum among each room's nodes, put on the nearer band face."""
+    band maximum among each room's nodes, put on the nearer band face.
+
+    ``node_best`` (r,) and ``node_at`` (r, 3) receive each room's largest node
+    value at its own height: with a source inside the prism the maximum need
+    not lie on the boundary, and the grid node is then the better estimate.
+    """
     g = floor_field.grid
     z0, z1 = g.band
     starts, rooms = [], []
@@ -155,6 +160,9 @@ def _face_starts(polys, floor_field, nan_seen):
             rooms += [i, i]
             continue
         zs = floor_field.zmax[iy, ix].ravel()[sel]
+        top = sel[np.argmax(vals.ravel()[sel])]
+        node_best[i] = vals.ravel()[top]
+        node_at[i] = (xx.ravel()[top], yy.ravel()[top], floor_field.zmax[iy, ix].ravel()[top])
         zs = np.where(zs - z0 <= z1 - zs, z0, z1)
         starts += list(zip(xx.ravel()[sel], yy.ravel()[sel], zs, strict=True))
         rooms += [i] * sel.size
@@ -175,7 +183,9 @@ def room_maxima(scene, polys, floor_field: FloorField):
     geoms = np.array(polys, dtype=object)
 
     # faces: starts (x, y) on the band face of each start, kept inside the outline
-    fs, froom = _face_starts(polys, floor_field, nan_seen)
+    node_best = np.full(nr, -np.inf)
+    node_at = np.full((nr, 3), np.nan)
+    fs, froom = _face_starts(polys, floor_field, nan_seen, node_best, node_at)
 
     # walls: samples at the grid spacing, valued by interpolating the band maximum
     # (the model itself where the stencil has undefined nodes); starts (arc length,
@@ -235,5 +245,8 @@ def room_maxima(scene, polys, floor_field: FloorField):
     order = np.argsort(fu)  # ascending: the last write per room is its best
     best[rooms[order]] = fu[order]
     at[rooms[order]] = to_xyz(u, np.arange(len(u)))[order]
+    # a source inside the prism (maximum not on the boundary): keep the grid node
+    inner = node_best > best
+    best[inner], at[inner] = node_best[inner], node_at[inner]
     best[~np.isfinite(best)] = np.nan
     return best, at, nan_seen
