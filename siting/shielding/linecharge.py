@@ -86,26 +86,35 @@ def _field_kernel(pts, a, b, lam, out):  # pragma: no cover - numba
 
 @njit(parallel=True, cache=True)
 def _tangential_operator(
-    targets, t1, t2, a, b, edge_ptr, inc_col, inc_coef, out
+    targets, weights, t1, t2, a, b, edge_ptr, inc_col, inc_coef, out
 ):  # pragma: no cover - numba
     """Fill ``out`` (n_cols, 2 n_targets), the transpose of the operator K.
 
-    Row ``2 q + j`` of K is the component along ``t_j[q]`` of the H field at
-    ``targets[q]`` of the edge charges produced by unit unknowns; unknown
-    ``c`` charges edge ``e`` with ``inc_coef[k]`` for the incidences
-    ``k in edge_ptr[e]:edge_ptr[e+1]`` whose ``inc_col[k] == c``.  Writing the
-    transpose (C order) gives K in Fortran order without a copy.
+    Row ``2 q + j`` of K is the component along ``t_j[q]`` of the H field,
+    averaged over the points ``targets[q, s]`` with weights ``weights[q, s]``
+    (points of weight 0 are skipped), of the edge charges produced by unit
+    unknowns; unknown ``c`` charges edge ``e`` with ``inc_coef[k]`` for the
+    incidences ``k in edge_ptr[e]:edge_ptr[e+1]`` whose ``inc_col[k] == c``.
+    Writing the transpose (C order) gives K in Fortran order without a copy.
     """
     bad = 0
     for q in prange(targets.shape[0]):
-        px = targets[q, 0]
-        py = targets[q, 1]
-        pz = targets[q, 2]
         r0 = 2 * q
         for e in range(a.shape[0]):
-            gx, gy, gz = _unit_kernel(
-                px, py, pz, a[e, 0], a[e, 1], a[e, 2], b[e, 0], b[e, 1], b[e, 2]
-            )
+            gx = 0.0
+            gy = 0.0
+            gz = 0.0
+            for s in range(targets.shape[1]):
+                w = weights[q, s]
+                if w == 0.0:
+                    continue
+                hx, hy, hz = _unit_kernel(
+                    targets[q, s, 0], targets[q, s, 1], targets[q, s, 2],
+                    a[e, 0], a[e, 1], a[e, 2], b[e, 0], b[e, 1], b[e, 2]
+                )
+                gx += w * hx
+                gy += w * hy
+                gz += w * hz
             if np.isnan(gx):
                 bad += 1
                 continue
@@ -152,13 +161,15 @@ def line_charge_field(points, starts, ends, density) -> np.ndarray:
     return out
 
 
-def tangential_operator(targets, t1, t2, starts, ends, edge_ptr, inc_col, inc_coef, n_cols):
+def tangential_operator(targets, t1, t2, starts, ends, edge_ptr, inc_col, inc_coef, n_cols,
+                        weights=None):
     """Dense operator K (2 n_targets, n_cols), Fortran order, from unit unknowns to in-plane H.
 
     Parameters
     ----------
-    targets : ndarray, shape (q, 3) [m]
-        Collocation points.
+    targets : ndarray, shape (q, 3) or (q, k, 3) [m]
+        Collocation points; with k points per target the field is their
+        weighted mean (``weights``).
     t1, t2 : ndarray, shape (q, 3)
         Unit tangent vectors at the targets; row ``2 i + j`` of K is along ``t_j[i]``.
     starts, ends : ndarray, shape (m, 3) [m]
@@ -171,14 +182,25 @@ def tangential_operator(targets, t1, t2, starts, ends, edge_ptr, inc_col, inc_co
         Line charge on the edge per unit of the unknown.
     n_cols : int
         Number of unknowns (2 per panel).
+    weights : ndarray, shape (q, k), optional
+        Weights of the points of each target (default: equal, ``1 / k``).
 
     Returns
     -------
     ndarray, shape (2 q, n_cols), Fortran-ordered [1]
     """
-    out = np.zeros((n_cols, 2 * len(targets)))
+    pts = np.asarray(targets, dtype=np.float64)
+    if pts.ndim == 2:
+        pts = pts[:, None, :]
+    if weights is None:
+        weights = np.full(pts.shape[:2], 1.0 / pts.shape[1])
+    weights = np.ascontiguousarray(weights, dtype=np.float64)
+    if pts.ndim != 3 or pts.shape[2] != 3 or weights.shape != pts.shape[:2]:
+        raise ValueError("targets (q, 3) or (q, k, 3) and weights (q, k) must agree")
+    out = np.zeros((n_cols, 2 * len(pts)))
     bad = _tangential_operator(
-        np.ascontiguousarray(targets, dtype=np.float64),
+        np.ascontiguousarray(pts),
+        weights,
         np.ascontiguousarray(t1, dtype=np.float64),
         np.ascontiguousarray(t2, dtype=np.float64),
         np.ascontiguousarray(starts, dtype=np.float64),

@@ -4,7 +4,8 @@ The unknowns are the in-plane magnetisation components of every panel, two per
 panel in its tangent basis.  :func:`layout` concatenates the sheets' panels,
 edges and edge incidences (the line charge of an edge per unit unknown is
 ``t (t_j . n_pe)``); :func:`factorise` assembles ``A = I - D_ref K`` in place
-(K: unknowns -> in-plane H at the centroids, :mod:`siting.shielding.linecharge`)
+(K: unknowns -> in-plane H at the panels' collocation points, see
+:mod:`siting.shielding.mesh`; kernels in :mod:`siting.shielding.linecharge`)
 and LU-factorises it; :class:`Factor` gives ``A^-1 v``, ``A v`` and ``K v`` from
 the factors alone, so K need not be stored next to them.
 
@@ -31,6 +32,8 @@ class Layout:
     """All sheets' panels and edges concatenated (see :func:`layout`)."""
 
     centroids: np.ndarray  # (N, 3)
+    samples: np.ndarray  # (N, 3, 3) collocation points
+    sample_weights: np.ndarray  # (N, 3)
     t1: np.ndarray
     t2: np.ndarray
     normals: np.ndarray
@@ -46,12 +49,15 @@ class Layout:
 
 def layout(sheets) -> Layout:
     """Concatenate the sheets' panels, edges and edge incidences (vectorised)."""
-    cen, t1, t2, nrm, psh, st, en, esh, cols, coefs, erows = ([] for _ in range(11))
+    cen, smp, wts, t1, t2, nrm, psh, st, en, esh, cols, coefs, erows = (
+        [] for _ in range(13))
     n_off = 0
     e_off = 0
     for i, sh in enumerate(sheets):
         m = sh.mesh
         cen.append(m.centroids)
+        smp.append(m.samples)
+        wts.append(m.sample_weights)
         t1.append(m.t1)
         t2.append(m.t2)
         nrm.append(m.normals)
@@ -76,7 +82,8 @@ def layout(sheets) -> Layout:
     np.cumsum(np.bincount(erows, minlength=e_off), out=ptr[1:])
     cmap = csr_matrix((coefs, (erows, cols)), shape=(e_off, 2 * n_off))
     return Layout(
-        np.vstack(cen), np.vstack(t1), np.vstack(t2), np.vstack(nrm), np.concatenate(psh),
+        np.vstack(cen), np.concatenate(smp), np.concatenate(wts), np.vstack(t1), np.vstack(t2),
+        np.vstack(nrm), np.concatenate(psh),
         np.vstack(st), np.vstack(en), np.concatenate(esh), ptr, cols[order], coefs[order], cmap,
     )
 
@@ -121,8 +128,9 @@ def factorise(lay: Layout, d_ref: np.ndarray, *, block: int = 2048) -> tuple[Fac
     blocks of ``block`` so the temporary stays small.
     """
     t0 = time.perf_counter()
-    a = tangential_operator(lay.centroids, lay.t1, lay.t2, lay.starts, lay.ends,
-                            lay.edge_ptr, lay.inc_col, lay.inc_coef, 2 * len(lay.centroids))
+    a = tangential_operator(lay.samples, lay.t1, lay.t2, lay.starts, lay.ends,
+                            lay.edge_ptr, lay.inc_col, lay.inc_coef, 2 * len(lay.centroids),
+                            weights=lay.sample_weights)
     for c0 in range(0, a.shape[1], block):  # column blocks: bounded temporaries
         sl = slice(c0, c0 + block)
         r0 = a[0::2, sl].copy()

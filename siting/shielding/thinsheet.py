@@ -14,11 +14,13 @@ shells are handled by the same sum).  The sheets' field is the Coulomb field
 of these line charges (:mod:`siting.shielding.linecharge`), and outside the
 steel ``B = mu0 (H_sources + H_sheets)``.
 
-Collocating at the panel centroids the constitutive law of the steel,
+Collocating the constitutive law of the steel at the panels (at the centroid of
+a quad, as the mean over three interior points of a triangle, see
+:mod:`siting.shielding.mesh`),
 ``M = chi(|H_t|) H_t`` with ``H_t`` the in-plane total field, gives the
 nonlinear system ``F(M) = M - chi(|H_t|) H_t = 0``, ``H_t = H_src,t + K M``,
 with K the dense (2N, 2N) operator from the panels' magnetisation to the
-in-plane field at the centroids.
+in-plane field at the collocation points.
 
 Solution
 --------
@@ -107,7 +109,7 @@ class SheetSolution:
     magnetisation : ndarray, shape (N, 3) [A/m]
         In-plane M of each panel (all sheets' panels concatenated).
     h_inplane : ndarray, shape (N, 3) [A/m]
-        In-plane total H at the centroids.
+        In-plane total H at the collocation points (a triangle: the mean of its three).
     b_steel : ndarray, shape (N, 3) [T]
         Flux density in the steel at the centroids: in-plane ``mu0 (H_t + M)``
         plus the normal component ``mu0 H . n`` (continuous across the faces).
@@ -151,6 +153,19 @@ class SheetSolution:
         if sheet is not None:
             b = b[self.panel_sheet == sheet]
         return float(b.max())
+
+
+def _sampled_source(source, lay, h_centroid):
+    """Source H (N, 3) [A/m] averaged over each panel's collocation points."""
+    w = lay.sample_weights
+    used = (w > 0) & ~((w == 1.0) & (np.arange(w.shape[1]) == 0))  # beyond a lone centroid
+    if not used.any():
+        return h_centroid
+    out = np.where((w[:, 0] == 1.0)[:, None], h_centroid, 0.0)
+    rows, cols = np.nonzero(used)
+    h = source.field(lay.samples[rows, cols]) / mu_0
+    np.add.at(out, rows, w[rows, cols, None] * h)
+    return out
 
 
 def _reference_tensors(sheets, lay):
@@ -218,10 +233,11 @@ def solve_sheets(sheets, source, *, tol: float = 1e-6, max_iter: int = 40,
     lay = layout(sheets)
     n = len(lay.centroids)
     h_src = source.field(lay.centroids) / mu_0
-    if not np.all(np.isfinite(h_src)):
+    h_col = _sampled_source(source, lay, h_src)
+    if not (np.all(np.isfinite(h_src)) and np.all(np.isfinite(h_col))):
         raise ValueError("source field is undefined (NaN) at a panel centroid")
-    hs = np.column_stack([np.einsum("ij,ij->i", h_src, lay.t1),
-                          np.einsum("ij,ij->i", h_src, lay.t2)]).reshape(-1)
+    hs = np.column_stack([np.einsum("ij,ij->i", h_col, lay.t1),
+                          np.einsum("ij,ij->i", h_col, lay.t2)]).reshape(-1)
     d_ref = _reference_tensors(sheets, lay)
     fac, timings = factorise(lay, d_ref)
     t_iter = time.perf_counter()
