@@ -239,6 +239,9 @@ MAGNET = '[[magnets]]\nid = "M"\nfloor = "G"\ncenter = [0, 0, 1]\naxis = [1, 0, 
 COIL = '[[coils]]\nid = "C"\nfloor = "G"\ncenter = [0, 0, 1]\nturns = 10\ncurrent = "1 A"\n'
 EXT = 'extents = [{ level = "0.5 mT", axial = 4, radial = 2.5 }]\n'
 SQUARE = "outline = [[0, 0], [4, 0], [4, 4], [0, 4]]\n"
+PLATE = '[[plates]]\nid = "P"\nfloor = "G"\nmaterial = "steel"\nthickness = "auto"\n'
+WALL_PLATE = "from = [0, 0]\nto = [5, 0]\nbottom = 0\ntop = 3\n"
+MATERIAL = '[[materials]]\nid = "MU"\n'
 
 # (case, text, key path, fragment of the message)
 INVALID = [
@@ -357,6 +360,48 @@ INVALID = [
     ("no floors", '[site]\nname = "Case"\n', "floors", "expected at least one [[floors]] table"),
     ("no site table", '[[floors]]\nid = "G"\nelevation = 0\nheight = 4\n',
      "site", "missing required table [site]"),
+    ("plate with wall and horizontal keys",
+     _doc(body=PLATE + WALL_PLATE + "z = 1\n"),
+     "plates[0]", "not both; got from, to, bottom, top, z"),
+    ("plate with neither geometry", _doc(body=PLATE), "plates[0]", "neither was given"),
+    ("wall plate without 'to'",
+     _doc(body=PLATE + "from = [0, 0]\nbottom = 0\ntop = 3\n"),
+     "plates[0].to", "missing required key 'to' (a wall plate needs from, to, bottom, top)"),
+    ("wall plate top below bottom",
+     _doc(body=PLATE + WALL_PLATE.replace("top = 3", "top = 0")),
+     "plates[0].top", "expected top above bottom"),
+    ("zero-length wall plate",
+     _doc(body=PLATE + WALL_PLATE.replace("to = [5, 0]", "to = [0, 0]")),
+     "plates[0].to", "expected a wall of length > 0"),
+    ("unknown plate material",
+     _doc(body=PLATE.replace('"steel"', '"MU9"') + WALL_PLATE),
+     "plates[0].material", "unknown material 'MU9'; materials are: steel"),
+    ("bad plate thickness",
+     _doc(body=PLATE.replace('"auto"', '"thin"') + WALL_PLATE),
+     "plates[0].thickness", "expected a thickness > 0 such as '10 mm', or 'auto'"),
+    ("unknown plate key lists 'from'",
+     _doc(body=PLATE + WALL_PLATE + 'start = [0, 0]\n'),
+     "plates[0].start", "allowed keys are: id, floor, name, material, thickness, from, to"),
+    ("non-monotone B-H table",
+     _doc(body=MATERIAL + "bh = [[0, 0], [100, 0.5], [200, 0.4], [400, 1.2]]\n"),
+     "materials[0].bh[2]", "increase strictly down the table (non-monotone)"),
+    ("B-H row that is not a pair",
+     _doc(body=MATERIAL + "bh = [[0, 0], [100], [400, 1.2]]\n"),
+     "materials[0].bh[1]", "expected a pair [H in A/m, B in T]"),
+    ("material with two laws",
+     _doc(body=MATERIAL + "permeability = 500\nbh = [[100, 0.5], [400, 1.2]]\n"),
+     "materials[0]", "expected exactly one of 'permeability', 'bh' or 'bh_file'"),
+    ("permeability not above 1", _doc(body=MATERIAL + "permeability = 0.5\n"),
+     "materials[0].permeability", "expected a relative permeability > 1"),
+    ("missing B-H file", _doc(body=MATERIAL + 'bh_file = "no-such-curve.csv"\n'),
+     "materials[0].bh_file", "cannot read the B-H file"),
+    ("reserved material id", _doc(body=MATERIAL.replace('"MU"', '"steel"')
+                                       + "permeability = 500\n"),
+     "materials[0].id", "the id 'steel' is reserved"),
+    ("negative stock thickness", _doc(site='stock_thicknesses = ["5 mm", "-1 mm"]'),
+     "site.stock_thicknesses[1]", "expected a length > 0"),
+    ("steel limit without a unit", _doc(site="steel_limit = 1.5"),
+     "site.steel_limit", "a unit is required"),
 ]
 
 

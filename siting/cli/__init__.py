@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import typer
 
-from siting.cli import cad, commands
+from siting.cli import cad, commands, shield
 
 app = typer.Typer(
     add_completion=False,
@@ -17,6 +17,7 @@ app = typer.Typer(
 )
 commands.register(app)
 cad.register(app)
+shield.register(app)
 
 
 def main() -> None:  # console-script entry point

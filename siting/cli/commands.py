@@ -52,7 +52,7 @@ def _margin_text(margin, unit) -> str:
     return format_length(margin, unit)
 
 
-def _print_tables(site, result) -> None:
+def _print_tables(site, result, shielding=None) -> None:
     from siting.export.labels import room_max_text
     from siting.site.units import format_field, si_factor
 
@@ -100,6 +100,10 @@ def _print_tables(site, result) -> None:
             out.print(f"floor {a.floor}: FAIL - the {format_field(a.access_limit_T, fu)} line "
                       f"leaves the zone 3/4 rooms over {a.uncovered_area_m2:.2f} m2, e.g. near "
                       f"({x:.2f}, {y:.2f}) {lu}.")
+    if shielding is not None:
+        from siting.cli.shield import print_shielding
+
+        print_shielding(site, shielding)
     out.print(ACCESS_NOTE.format(value=format_field(site.info.access_limit, fu)))
     out.print(f"{result.failures} failure(s).")
     out.print(CAUTION)
@@ -112,16 +116,18 @@ def check(
 ) -> None:
     """Check every room and piece of equipment against its limit."""
     from siting.export.results import check_record
+    from siting.site.steel import shielding_report
 
     site, sources = load(site_file)
     try:
         result = _analyse(site, sources, spacing, progress=not as_json)
     except SitingError as exc:
         raise fail_invalid(exc) from None
+    report = shielding_report(sources)
     if as_json:
-        out.print_json(json.dumps(check_record(site, result)))
+        out.print_json(json.dumps(check_record(site, result, report)))
     else:
-        _print_tables(site, result)
+        _print_tables(site, result, report)
     raise typer.Exit(EXIT_FAIL if result.failures else EXIT_PASS)
 
 

@@ -60,9 +60,62 @@ def access_record(a) -> dict:
     }
 
 
-def check_record(site, result) -> dict:
-    """The ``siting check --json`` document."""
+def plate_record(p) -> dict:
+    """One solved plate (a :class:`siting.site.steel.PlateResult`)."""
     return {
+        "id": p.id,
+        "thickness_m": _num(p.thickness),
+        "sized": bool(p.sized),
+        "mass_kg": _num(p.mass),
+        "peak_b_T": _num(p.peak_b),
+        "steel_limit_T": _num(p.steel_limit),
+        "saturated": bool(p.saturated),
+        "force_N": _vec(p.force),
+    }
+
+
+def candidate_record(c, verified=None, worst=None) -> dict:
+    """One stock thickness tried (a :class:`siting.shielding.sizing.Candidate`)."""
+    return {
+        "thickness_m": _num(c.thickness),
+        "targets_max_T": {k: _num(v) for k, v in (worst or {}).items()},
+        "meets_targets": bool(c.meets_targets),
+        "peak_b_T": _num(c.b_steel_peak),
+        "within_steel_limit": bool(c.within_steel_limit),
+        "full_check_passed": verified,
+        "mass_kg": [_num(m) for m in c.masses],
+        "force_N": [_vec(f) for f in c.forces],
+        "iterations": int(c.iterations),
+    }
+
+
+def magnet_record(m) -> dict:
+    """A magnet's field shift (a :class:`siting.site.steel.MagnetResult`)."""
+    return {"id": m.id, "shift_uT": _num(m.shift_ut), "shift_ppm": _num(m.shift_ppm),
+            "peak_to_peak_ppm": _num(m.peak_to_peak_ppm), "sphere_diameter_m": _num(m.diameter)}
+
+
+def shielding_record(report) -> dict:
+    """The steel of a site (a :class:`siting.site.steel.ShieldingReport`)."""
+    rec = {
+        "plates": [plate_record(p) for p in report.plates],
+        "magnets": [magnet_record(m) for m in report.magnets],
+        "iterations": int(report.iterations),
+        "residual": _num(report.residual),
+        "converged": bool(report.converged),
+        "sized": list(report.sized),
+    }
+    if report.sizing is not None:
+        verified = report.verified or (None,) * len(report.sizing.candidates)
+        rec["candidates"] = [
+            candidate_record(c, v, report.targets.worst(c.b_targets) if report.targets else None)
+            for c, v in zip(report.sizing.candidates, verified, strict=True)]
+    return rec
+
+
+def check_record(site, result, shielding=None) -> dict:
+    """The ``siting check --json`` document; ``shielding`` (a ShieldingReport) adds its key."""
+    doc = {
         "site": site.info.name,
         "input_sha256": site.content_hash,
         "access_limit_T": site.info.access_limit,
@@ -72,6 +125,11 @@ def check_record(site, result) -> dict:
         "failures": int(result.failures),
         "caution": CAUTION_TEXT,
     }
+    if shielding is not None:
+        doc.pop("caution")
+        doc["shielding"] = shielding_record(shielding)
+        doc["caution"] = CAUTION_TEXT  # kept last
+    return doc
 
 
 def _rings(geom) -> list[dict]:

@@ -3,7 +3,9 @@
 This is the one place where site items become physics objects: magnets become
 fringe models (from published isogauss extents) or coil sets (from their
 windings), coils become loops or thin solenoids, cables polylines, dipoles
-point dipoles, and the optional ambient field a uniform source.
+point dipoles, the optional ambient field a uniform source, and steel plates
+thin sheets solved in the field of all the other sources (see
+:mod:`siting.site.steel`).
 """
 
 from __future__ import annotations
@@ -26,7 +28,7 @@ from siting.site import model
 class NamedSource:
     """A field source with the site item it came from.
 
-    ``kind`` is one of "magnet", "coil", "cable", "dipole", "ambient";
+    ``kind`` is one of "magnet", "coil", "cable", "dipole", "ambient", "plate";
     ``undefined`` says in words where the source returns NaN.
     """
 
@@ -68,7 +70,23 @@ def coil_source(coil: model.Coil):
 
 
 def build_sources(site: model.Site) -> list[NamedSource]:
-    """Every field source of the site, in file order, magnets first."""
+    """Every field source of the site, in file order, magnets first, plates last.
+
+    Plates (if any) are sized and solved in the field of all other sources by
+    :func:`siting.site.steel.build_shielding`; the report is kept on the plate
+    sources (:func:`siting.site.steel.shielding_report`).
+    """
+    out = base_sources(site)
+    if site.plates:
+        from siting.site.steel import build_shielding
+
+        plates, _report = build_shielding(site, out)
+        out.extend(plates)
+    return out
+
+
+def base_sources(site: model.Site) -> list[NamedSource]:
+    """The site's sources without the steel plates (the field the steel is solved in)."""
     out: list[NamedSource] = []
     for m in site.magnets:
         src = magnet_source(m)

@@ -9,7 +9,8 @@ Cross-table rules checked here:
 
 * there is a ``[site]`` table and at least one ``[[floors]]`` table;
 * ids are unique across all tables (floors, rooms, magnets, coils, cables,
-  dipoles, equipment), since items are addressed by id alone;
+  dipoles, equipment, materials, plates), since items are addressed by id alone;
+* every plate's ``material`` names a ``[[materials]]`` entry or ``"steel"``;
 * every ``floor`` names a floor of the file;
 * heights: every z in the file is above the item's finished floor; the model
   stores the absolute z = floor elevation + z.
@@ -36,7 +37,12 @@ from siting.site.schema import (
     MagnetItem,
     Problem,
     RoomItem,
-    SiteSection,
+)
+from siting.site.schema_plates import (
+    DEFAULT_STEEL_ID,
+    MaterialItem,
+    PlateItem,
+    ShieldedSiteSection,
 )
 from siting.site.units import show_value
 
@@ -50,6 +56,8 @@ SECTIONS: dict[str, type[BaseModel]] = {
     "cables": CableItem,
     "dipoles": DipoleItem,
     "equipment": EquipmentItem,
+    "materials": MaterialItem,
+    "plates": PlateItem,
 }
 """The site file's arrays of tables and the model validating each table."""
 
@@ -124,14 +132,15 @@ def _load(data: bytes, source: str) -> m.Site:
     except (ValueError, RecursionError) as exc:  # e.g. an integer with too many digits
         raise SiteFileError([f"{source}: TOML value that cannot be read: {exc}"]) from None
     problems: list[tuple[str, str]] = []
-    site = _validate_site(document, problems)
-    items = _validate_items(document, site, problems)
+    base_dir = os.path.dirname(os.path.abspath(source))  # B-H files are relative to it
+    site = _validate_site(document, problems, base_dir)
+    items = _validate_items(document, site, problems, base_dir)
     if problems:
         raise SiteFileError([f"{source}: {path}: {message}" for path, message in problems])
     return _build(site, items, source, hashlib.sha256(data).hexdigest())
 
 
-def _validate_site(document: dict, problems: list) -> SiteSection | None:
+def _validate_site(document: dict, problems: list, base_dir: str) -> ShieldedSiteSection | None:
     for key in document:
         if key != "site" and key not in SECTIONS:
             problems.append((key, f"unknown section '{key}'; sections are: site, "
@@ -143,10 +152,10 @@ def _validate_site(document: dict, problems: list) -> SiteSection | None:
     if not isinstance(raw, dict):
         problems.append(("site", f"expected a table [site], got {show_value(raw)}"))
         return None
-    return _validate(SiteSection, raw, "site", _context(document), problems)
+    return _validate(ShieldedSiteSection, raw, "site", _context(document, base_dir), problems)
 
 
-def _context(document: dict) -> dict:
+def _context(document: dict, base_dir: str = ".") -> dict:
     raw = document.get("site")
     raw = raw if isinstance(raw, dict) else {}
     length_unit = raw.get("length_unit", "m")
@@ -154,6 +163,7 @@ def _context(document: dict) -> dict:
     return {
         "length_unit": length_unit if length_unit in ("m", "ft") else "m",
         "field_unit": field_unit if field_unit in ("mT", "G", "uT") else "mT",
+        "base_dir": base_dir,  # for files named in the site file (B-H tables)
     }
 
 
@@ -172,8 +182,8 @@ def _tables(document: dict, section: str, problems: list) -> list[tuple[str, dic
     return tables
 
 
-def _validate_items(document: dict, site, problems: list) -> dict[str, list]:
-    context = _context(document)
+def _validate_items(document: dict, site, problems: list, base_dir: str) -> dict[str, list]:
+    context = _context(document, base_dir)
     tables = {section: _tables(document, section, problems) for section in SECTIONS}
     floor_ids = list(dict.fromkeys(
         t["id"] for _, t in tables["floors"] if isinstance(t.get("id"), str)))
@@ -196,6 +206,13 @@ def _validate_items(document: dict, site, problems: list) -> dict[str, list]:
                 known = ", ".join(floor_ids) if floor_ids else "none are defined"
                 problems.append((f"{path}.floor", f"unknown floor '{ref}'; floors are: {known}"))
             items[section].append(item)
+    material_ids = [t["id"] for _, t in tables["materials"] if isinstance(t.get("id"), str)]
+    for path, table in tables["plates"]:
+        ref = table.get("material", DEFAULT_STEEL_ID)
+        if isinstance(ref, str) and ref != DEFAULT_STEEL_ID and ref not in material_ids:
+            known = ", ".join([DEFAULT_STEEL_ID, *material_ids])
+            problems.append((f"{path}.material",
+                             f"unknown material '{ref}'; materials are: {known}"))
     return items
 
 
@@ -247,7 +264,8 @@ def _describe(error: dict, model_cls, prefix: str) -> list[tuple[str, str]]:
     field = owner.model_fields.get(key) if owner is not None and isinstance(key, str) else None
     description = field.description if field is not None else None
     if kind == "extra_forbidden":
-        allowed = ", ".join(owner.model_fields) if owner is not None else ""
+        allowed = ", ".join(f.alias or name for name, f in owner.model_fields.items()
+                            ) if owner is not None else ""
         return [(path, f"unknown key '{key}'; allowed keys are: {allowed}")]
     if kind == "missing":
         detail = f" ({description})" if description else ""
@@ -271,12 +289,13 @@ def _vec(values, floor: m.Floor | None = None) -> np.ndarray:
     return arr
 
 
-def _build(site: SiteSection, items: dict[str, list], source: str, digest: str) -> m.Site:
+def _build(site: ShieldedSiteSection, items: dict[str, list], source: str, digest: str) -> m.Site:
     info = m.SiteInfo(
         name=site.name, length_unit=site.length_unit, field_unit=site.field_unit,
         levels=site.levels, check_heights=site.check_heights, access_limit=site.access_limit,
         ambient=site.ambient, revision=site.revision, date=site.date,
         prepared_by=site.prepared_by, checked_by=site.checked_by, north=site.north,
+        stock_thicknesses=site.stock_thicknesses, steel_limit=site.steel_limit,
     )
     floors = tuple(m.Floor(id=f.id, name=f.name or f.id, elevation=f.elevation, height=f.height)
                    for f in items["floors"])
@@ -309,5 +328,22 @@ def _build(site: SiteSection, items: dict[str, list], source: str, digest: str) 
                     at=_vec(e.at, by_id[e.floor]), limit=e.limit)
         for e in items["equipment"])
     return m.Site(info=info, floors=floors, rooms=rooms, magnets=magnets, coils=coils,
-                  cables=cables, dipoles=dipoles, equipment=equipment, source=source,
-                  content_hash=digest)
+                  cables=cables, dipoles=dipoles, equipment=equipment,
+                  materials=tuple(_material(x) for x in items["materials"]),
+                  plates=tuple(_plate(p, by_id[p.floor]) for p in items["plates"]),
+                  source=source, content_hash=digest)
+
+
+def _material(x: MaterialItem) -> m.Material:
+    h, b = x._table if x._table is not None else (None, None)
+    return m.Material(id=x.id, name=x.name or x.id, permeability=x.permeability, h=h, b=b,
+                      density=x.density, source=x._source)
+
+
+def _plate(p: PlateItem, floor: m.Floor) -> m.Plate:
+    common = dict(id=p.id, floor=p.floor, name=p.name or p.id, material=p.material,
+                  thickness=p.thickness, panels=p.panels)
+    if p.start is not None:
+        return m.Plate(**common, start=_vec(p.start), end=_vec(p.to),
+                       bottom=floor.elevation + p.bottom, top=floor.elevation + p.top)
+    return m.Plate(**common, outline=_vec(p.outline), z=floor.elevation + p.z)

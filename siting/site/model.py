@@ -13,6 +13,8 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
+from siting.shielding.material import DESIGN_B_LIMIT, STEEL_DENSITY, STOCK_THICKNESSES
+
 
 @dataclass(frozen=True)
 class SiteInfo:
@@ -29,6 +31,10 @@ class SiteInfo:
     prepared_by: str = ""
     checked_by: str = ""
     north: float = 0.0  # rotation of the plan's +y axis from true north, degrees clockwise
+    # shielding steel: candidate plate thicknesses [m], ascending, and the design
+    # limit of the peak flux density in the steel [T] (both common practice)
+    stock_thicknesses: tuple[float, ...] = STOCK_THICKNESSES
+    steel_limit: float = DESIGN_B_LIMIT
 
 
 @dataclass(frozen=True)
@@ -119,6 +125,43 @@ class Equipment:
 
 
 @dataclass(frozen=True, eq=False)
+class Material:
+    """A shielding material: a constant permeability or a B-H table (H [A/m], B [T])."""
+
+    id: str
+    name: str
+    permeability: float | None = None  # constant relative permeability (> 1)
+    h: np.ndarray | None = None  # (m,) [A/m], strictly increasing from 0
+    b: np.ndarray | None = None  # (m,) [T], strictly increasing from 0
+    density: float = STEEL_DENSITY  # [kg/m^3]
+    source: str = ""  # where the table came from ("inline" or the CSV path)
+
+
+@dataclass(frozen=True, eq=False)
+class Plate:
+    """A flat steel plate: a wall plate (``start``, ``end``, ``bottom``, ``top``) or a
+    horizontal plate (``outline``, ``z``); heights absolute."""
+
+    id: str
+    floor: str
+    name: str
+    material: str  # id of a Material, or "steel" (the shipped TEAM 13 steel)
+    thickness: float | None  # [m]; None: "auto" (sized from the stock list)
+    start: np.ndarray | None = None  # (2,) plan [m], wall plates
+    end: np.ndarray | None = None  # (2,) plan [m]
+    bottom: float | None = None  # absolute [m]
+    top: float | None = None  # absolute [m]
+    outline: np.ndarray | None = None  # (m, 2) plan [m], horizontal plates
+    z: float | None = None  # absolute [m]
+    panels: float | None = None  # uniform target panel size [m]; None: graded
+
+    @property
+    def wall(self) -> bool:
+        """True for a vertical (wall) plate."""
+        return self.start is not None
+
+
+@dataclass(frozen=True, eq=False)
 class Site:
     info: SiteInfo
     floors: tuple[Floor, ...]
@@ -128,6 +171,8 @@ class Site:
     cables: tuple[Cable, ...] = ()
     dipoles: tuple[Dipole, ...] = ()
     equipment: tuple[Equipment, ...] = ()
+    materials: tuple[Material, ...] = ()
+    plates: tuple[Plate, ...] = ()
     source: str = "<memory>"  # path of the file it came from
     content_hash: str = ""  # sha256 of the file's bytes
     extra: dict = field(default_factory=dict)
