@@ -42,8 +42,10 @@ def draw(
 ) -> None:
     """Draw the review sheets (plans, sections, summary) or the DXF overlay."""
     from siting.analysis.checks import check_site
+    from siting.export.shapes import drawn_plates
     from siting.export.sheets import DrawingOptions, write_drawings
     from siting.site.build import build_scene
+    from siting.site.steel import shielding_report
 
     suffix = output.suffix.lower()
     if suffix not in (".pdf", ".svg", ".png", ".dxf"):
@@ -61,8 +63,9 @@ def draw(
         with progress_bar() as report:
             result = check_site(site, scene, spacing=spacing, progress=report)
         output.parent.mkdir(parents=True, exist_ok=True)
+        plates = drawn_plates(site, shielding_report(sources))
         written = write_drawings(site, result, output, scene=scene, sources=sources,
-                                 options=options)
+                                 options=options, plates=plates)
     except SitingError as exc:
         raise fail_invalid(exc) from None
     except ValueError as exc:

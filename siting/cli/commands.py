@@ -204,19 +204,20 @@ def map_(
         result = _analyse(site, sources, spacing)
     except SitingError as exc:
         raise fail_invalid(exc) from None
-    written = _write_map(site, result, out_dir)
+    written = _write_map(site, result, out_dir, sources)
     for path in written:
         out.print(f"wrote {path}")
     out.print(CAUTION)
 
 
-def _write_map(site, result, out_dir: Path) -> list[Path]:
+def _write_map(site, result, out_dir: Path, sources=()) -> list[Path]:
     from siting.export.plan_png import write_floor_pngs
     from siting.export.results import check_record, contour_record
+    from siting.site.steel import shielding_report
 
     out_dir.mkdir(parents=True, exist_ok=True)
     written = write_floor_pngs(site, result, out_dir)
-    doc = check_record(site, result)
+    doc = check_record(site, result, shielding_report(sources))
     doc["contours"] = contour_record(site, result)
     path = out_dir / "results.json"
     path.write_text(json.dumps(doc, indent=1) + "\n")
@@ -236,7 +237,7 @@ def demo(
     site, sources = load(path)
     result = _analyse(site, sources, None)
     _print_tables(site, result)
-    written = _write_map(site, result, out_dir)
+    written = _write_map(site, result, out_dir, sources)
     out.print(f"results written to {out_dir.resolve()}:")
     for path in written:
         out.print(f"  {path}")

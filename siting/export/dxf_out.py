@@ -179,6 +179,8 @@ def _sources(doc, msp, site, fid, k, h, fu, result, plates, sources) -> None:
         if getattr(plate, "floor", fid) == fid and getattr(plate, "outline", None) is not None:
             lay = _layer(doc, layer_name(fid, "PLATES"), "magnet")
             _ring(msp, np.asarray(plate.outline)[:, :2], lay, k)
+            if getattr(plate, "label", None):
+                _text(msp, plate.label, np.asarray(plate.outline)[:, :2].mean(axis=0), lay, h, k)
 
 
 def write_overlay(site, result, path, *, units: str | None = None, plates=(),

@@ -222,8 +222,21 @@ def draw_plates(ax, plates, floor_id) -> None:
         outline = getattr(plate, "outline", None)
         if outline is None or getattr(plate, "floor", floor_id) != floor_id:
             continue
-        ax.add_patch(MplPolygon(np.asarray(outline)[:, :2], closed=True, facecolor="none",
+        ax.add_patch(MplPolygon(np.asarray(outline)[:, :2], closed=True, facecolor="#6b6b6b",
                                 edgecolor="black", hatch="xxx", linewidth=0.8, zorder=5))
+
+
+
+def draw_plate_labels(plates, floor_id, placer, font) -> None:
+    """Each plate's label ("id: thickness, mass") placed clear of other texts."""
+    for plate in plates:
+        label = getattr(plate, "label", None)
+        if not label or getattr(plate, "floor", floor_id) != floor_id:
+            continue
+        c = np.asarray(plate.outline)[:, :2].mean(axis=0)
+        cands = [Candidate(c[0], c[1], dx, dy, ha, va)
+                 for r in (6, 12, 20) for dx, dy, ha, va in ring_offsets(r)]
+        placer.place(label, cands, fontsize=font - 1.0, bbox=LABEL_BOX)
 
 
 def draw_equipment(ax, site, result, floor_id, placer, units, font) -> None:
@@ -309,6 +322,7 @@ def draw_plan(ax, site, result, floor_id: str, *, units: str, font: float, sourc
     draw_rooms(ax, site, result, floor_id, placer, units, font, fail_ids)
     draw_equipment(ax, site, result, floor_id, placer, units, font)
     draw_other_sources(ax, site, floor_id, placer, font)
+    draw_plate_labels(plates, floor_id, placer, font)
     draw_lines(ax, site, result, floor_id, placer, units, font)
     draw_callouts(ax, viols, placer, units, font)
     style_axes(ax, site, font)

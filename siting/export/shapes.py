@@ -7,6 +7,8 @@ functions serve plans and sections.
 
 from __future__ import annotations
 
+from dataclasses import dataclass
+
 import numpy as np
 import shapely
 from matplotlib.path import Path as MplPath
@@ -140,3 +142,45 @@ def positions_along(line: np.ndarray, fractions) -> list[np.ndarray]:
 
 def polyline_length(line: np.ndarray) -> float:
     return float(np.hypot(*np.diff(line, axis=0).T).sum())
+
+
+@dataclass(frozen=True, eq=False)
+class DrawnPlate:
+    """A steel plate as drawn in plan: ``outline`` (m, 2) [m] and a label."""
+
+    id: str
+    floor: str
+    outline: np.ndarray
+    label: str
+
+
+#: Drawn width of a wall plate in plan [m]: its thickness, widened so it shows at 1:200.
+MIN_WALL_WIDTH = 0.06
+
+
+def drawn_plates(site, report=None) -> list[DrawnPlate]:
+    """Plan outlines and labels ("P1: 15 mm, 1802 kg") of the site's plates.
+
+    A wall plate is drawn as the rectangle of its run widened to its thickness
+    (at least ``MIN_WALL_WIDTH``); a horizontal plate as its outline.  Thickness
+    and mass come from the solved shielding report when there is one.
+    """
+    solved = {p.id: p for p in (report.plates if report is not None else ())}
+    out = []
+    for plate in getattr(site, "plates", ()):
+        res = solved.get(plate.id)
+        thickness = res.thickness if res is not None else plate.thickness
+        if plate.wall:
+            a, b = np.asarray(plate.start, float), np.asarray(plate.end, float)
+            d = (b - a) / np.linalg.norm(b - a)
+            n = np.array([-d[1], d[0]]) * max(thickness or 0.0, MIN_WALL_WIDTH) / 2
+            outline = np.array([a - n, b - n, b + n, a + n])
+        else:
+            outline = np.asarray(plate.outline, float)[:, :2]
+        label = plate.id
+        if thickness:
+            label += f": {thickness * 1e3:.0f} mm"
+        if res is not None:
+            label += f", {res.mass:.0f} kg"
+        out.append(DrawnPlate(plate.id, plate.floor, outline, label))
+    return out
