@@ -252,3 +252,15 @@ outline = [[-1, 0.6], [1, 0.6], [1, 2], [-1, 2]]
     assert res.exit_code == 2 and "unknown plate 'NOPE'" in res.output
     res = runner.invoke(app, ["shield", str(path), "--target", "NOPE"])
     assert res.exit_code == 2 and "'NOPE' is no room or equipment" in res.output
+
+
+def test_drawing_set_shows_the_steel(tmp_path):
+    from pypdf import PdfReader
+
+    out = tmp_path / "steel.pdf"
+    res = runner.invoke(app, ["draw", str(ROOMS / "hospital_shielded.toml"), "-o", str(out)])
+    assert res.exit_code == 0, res.output
+    text = "\n".join(page.extract_text() for page in PdfReader(out).pages)
+    assert "Steel plates" in text and "PL-W" in text
+    assert "isocentre" in text and "ppm" in text
+    assert "MR physicist" in text

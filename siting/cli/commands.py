@@ -43,13 +43,13 @@ def _analyse(site, sources, spacing, progress=True):
 
 
 def _margin_text(margin, unit) -> str:
-    from siting.site.units import format_length
+    from siting.site.units import format_distance
 
     if margin is None:
         return "-"
     if not np.isfinite(margin):
         return "clear (no line)"
-    return format_length(margin, unit)
+    return format_distance(margin, unit)
 
 
 def _print_tables(site, result, shielding=None) -> None:

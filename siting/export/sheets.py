@@ -204,9 +204,9 @@ def section_sheets(site, magnet, fr, *, scene, scale, units, sources, spacing, d
     return [_section_figure(site, magnet, fr, secs, best, n_two, **kw)]
 
 
-def summary_sheets(site, result, fr, *, units, dpi):
+def summary_sheets(site, result, fr, *, units, dpi, shielding=None):
     """Figures of the summary (one or more sheets)."""
-    blocks = summary.summary_blocks(site, result, units)
+    blocks = summary.summary_blocks(site, result, units, shielding=shielding)
     size = fr.font - 0.5
     pages = summary.flow(blocks, fr.views, size)
     figs = []
@@ -261,7 +261,10 @@ def drawing_set(site, result, *, scene=None, sources=None, options: DrawingOptio
         scene = build_scene(site, sources)
     out = []
     with sheet_style():
-        for fig in summary_sheets(site, result, fr, units=units, dpi=100.0):
+        from siting.site.steel import shielding_report
+
+        report = shielding_report(sources) if sources else None
+        for fig in summary_sheets(site, result, fr, units=units, dpi=100.0, shielding=report):
             out.append(("summary", "Summary of checks, levels and sources", None, None, fig))
         for floor_id in plan.floors_to_draw(site, result):
             fig, n, title = plan_sheet(site, result, floor_id, fr, scale=opt.scale, units=units,

@@ -87,7 +87,7 @@ class Paragraphs:
 
 def room_table(site, result, units: str) -> Table:
     lu = site.info.length_unit
-    from siting.site.units import format_length
+    from siting.site.units import format_distance
 
     names = {r.id: r.name for r in site.rooms}
     rows, fails = [], set()
@@ -96,13 +96,13 @@ def room_table(site, result, units: str) -> Table:
         at = "-"
         if r.at_m is not None and np.all(np.isfinite(r.at_m)):
             x, y, z = r.at_m
-            at = ", ".join(format_length(v, lu) for v in (x, y, z - floor.elevation))
+            at = ", ".join(format_distance(v, lu) for v in (x, y, z - floor.elevation))
         rows.append((
             r.id, names.get(r.id, ""), r.floor, zone_text(r.zone),
             field_text(r.limit_T, units) if r.limit_T is not None else "none",
             room_max_text(site, r, units),
             at,
-            format_length(r.margin_m, lu)
+            format_distance(r.margin_m, lu)
             if r.margin_m is not None and np.isfinite(r.margin_m) else "-",
             f"{r.area_over_m2:.2f} m\u00b2" if r.area_over_m2 else "-",
             status_text(r.status)))
@@ -126,11 +126,38 @@ def equipment_table(site, result, units: str) -> Table:
                  (0.1, 0.38, 0.08, 0.16, 0.16, 0.12), tuple(rows), frozenset(fails))
 
 
-def summary_blocks(site, result, units: str) -> list:
+def shielding_blocks(site, report, units: str) -> list:
+    """The steel plates (thickness, mass, peak |B| in the steel, force) and what the
+    steel does to each magnet (isocentre shift, peak-to-peak over a sphere)."""
+    names = {p.id: p.name for p in site.plates}
+    rows = []
+    for p in report.plates:
+        force = float(np.linalg.norm(p.force))
+        rows.append((p.id, names.get(p.id, ""), f"{p.thickness * 1e3:.1f} mm"
+                     + (" (sized)" if p.sized else ""), f"{p.mass:.0f} kg",
+                     f"{p.peak_b:.3g} T / {p.steel_limit:.3g} T"
+                     + (" SATURATED" if p.saturated else ""), f"{force:.3g} N"))
+    table = Table("Steel plates", ("plate", "name", "thickness", "mass",
+                                   "peak |B| in steel / limit", "net force"),
+                  (0.1, 0.3, 0.14, 0.1, 0.22, 0.14), tuple(rows),
+                  frozenset(i for i, p in enumerate(report.plates) if p.saturated))
+    text = [f"Magnet {m.id}: the steel shifts the field at the isocentre by {m.shift_ut:.3g} uT "
+            f"({m.shift_ppm:.3g} ppm of the central field); peak-to-peak {m.peak_to_peak_ppm:.3g}"
+            f" ppm over a {m.diameter:g} m sphere." for m in report.magnets]
+    text.append(f"Nonlinear thin-sheet solution: {report.iterations} iterations, residual "
+                f"{report.residual:.2g}, {'converged' if report.converged else 'NOT converged'}. "
+                "The thin-sheet model neglects magnetisation normal to a plate and is approximate "
+                "within about two panel sizes of a plate.")
+    return [table, Paragraphs("What the steel does", tuple(text))]
+
+
+def summary_blocks(site, result, units: str, *, shielding=None) -> list:
     """The summary's content, in reading order."""
     blocks: list = [room_table(site, result, units)]
     if result.equipment:
         blocks.append(equipment_table(site, result, units))
+    if shielding is not None:
+        blocks.extend(shielding_blocks(site, shielding, units))
     access = []
     for a in result.access:
         lim = field_text(a.access_limit_T, units)

@@ -299,3 +299,13 @@ def format_length(value_m: float, unit: str, *, digits: int = 3) -> str:
     """
     factor = si_factor(unit, "length")
     return f"{_format_sig(float(value_m) / factor, digits, 3)} {unit}"
+
+
+def format_distance(value_m: float, unit: str, *, decimals: int = 2) -> str:
+    """Display a plan distance or coordinate with fixed decimals: "-0.50 m", "0.03 m".
+
+    For margins and positions on a plan, where a fixed resolution (1 cm in metres)
+    reads better than significant figures.
+    """
+    factor = si_factor(unit, "length")
+    return f"{float(value_m) / factor:.{decimals}f} {unit}"
