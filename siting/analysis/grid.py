@@ -281,7 +281,7 @@ def band_max(scene, grid: PlanGrid) -> FloorField:
     Parameters
     ----------
     scene : object with ``magnitude(points (n, 3) [m]) -> (n,) [T]``
-        Called once with all ``k * ny * nx`` nodes.
+        Called once per check height with all ``ny * nx`` plan nodes.
     grid : PlanGrid
         Plan nodes and check heights.
 
@@ -289,16 +289,21 @@ def band_max(scene, grid: PlanGrid) -> FloorField:
     -------
     FloorField
     """
-    k = grid.heights.size
     ny, nx = grid.shape
-    mag = np.asarray(scene.magnitude(grid.points()), dtype=np.float64).reshape(k, ny, nx)
-    nan = np.isnan(mag)
-    invalid = nan.any(axis=0)
-    filled = np.where(nan, -np.inf, mag)
-    idx = np.argmax(filled, axis=0)
-    bmax = np.take_along_axis(filled, idx[None], axis=0)[0]
-    all_nan = nan.all(axis=0)
-    bmax[all_nan] = np.nan
-    zmax = grid.heights[idx]
-    zmax[all_nan] = np.nan
-    return FloorField(grid, bmax, invalid, zmax)
+    pts = np.empty((ny * nx, 3))
+    pts[:, :2] = grid.plan_points()
+    bmax = np.full(ny * nx, -np.inf)
+    zmax = np.full(ny * nx, np.nan)
+    invalid = np.zeros(ny * nx, dtype=bool)
+    valid_any = np.zeros(ny * nx, dtype=bool)
+    for z in grid.heights:
+        pts[:, 2] = z
+        mag = np.asarray(scene.magnitude(pts), dtype=np.float64)
+        nan = np.isnan(mag)
+        invalid |= nan
+        valid_any |= ~nan
+        higher = mag > bmax  # False where mag is NaN
+        bmax[higher] = mag[higher]
+        zmax[higher] = z
+    bmax[~valid_any] = np.nan
+    return FloorField(grid, bmax.reshape(ny, nx), invalid.reshape(ny, nx), zmax.reshape(ny, nx))
