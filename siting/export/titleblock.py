@@ -60,7 +60,10 @@ def _cell(pax, x, y, w, h, caption: str, value: str, size: float, *, bold=False)
     pax.add_patch(Rectangle((x, y), w, h, fill=False, linewidth=0.5, edgecolor="black"))
     pax.text(x + 1.0, y + h - 0.8, caption, fontsize=size - 2.0, va="top", ha="left",
              color="#444444")
-    pax.text(x + 1.0, y + 1.0, _fit(value, w - 2.0, size), fontsize=size, va="bottom",
+    if bold:  # a long bold title shrinks (down to 75 %) before it is cut
+        size = max(0.75 * size, min(size, (w - 2.0) / (0.64 * max(len(value), 1) * PT_MM)))
+    text = _fit(value, (w - 2.0) * (0.56 / 0.64 if bold else 1.0), size)
+    pax.text(x + 1.0, y + 1.0, text, fontsize=size, va="bottom",
              ha="left", fontweight="bold" if bold else "normal")
 
 
