@@ -37,18 +37,20 @@ from siting.site.schema import (
     Ident,
     OptionalPositiveLength,
     PositiveField,
-    Problem,
     SiteSection,
+    _Table,
+)
+from siting.site.units import parse_quantity, show_value
+from siting.site.values import (
+    Problem,
     _distinct_sorted,
     _elements,
     _finite_number,
     _outline,
     _point,
     _positive_length,
-    _Table,
     _unit,
 )
-from siting.site.units import parse_quantity, show_value
 
 __all__ = ["DEFAULT_STEEL_ID", "MaterialItem", "PlateItem", "ShieldedSiteSection"]
 
