@@ -8,11 +8,17 @@ Rules
   plates).  Each plate becomes a :class:`~siting.site.build.NamedSource` of
   kind "plate" whose field is that of its own edge charges, so the plates'
   sources superpose to the field of the solved set.
-* Mesh: a uniform panel size ``panels`` if the plate gives one, else panels
-  graded toward the sources (:func:`siting.shielding.plates.rectangle`) and at
-  most :data:`MAX_PANEL` wide, so that the field a few decimetres beyond the
-  plate is resolved.  The thin-sheet field is approximate within about two
-  panel sizes of the steel and undefined on the panels' edges.
+* Mesh: a uniform panel size ``panels`` if the plate gives one (the user
+  override), else chosen automatically (:func:`mesh_choice`): graded meshes
+  toward the sources, the limit points and the rims
+  (:func:`siting.shielding.plates.rectangle`) are refined level by level until
+  |B| at every limit point changes by at most :data:`MESH_TOL` of its limit
+  between two levels (:func:`siting.shielding.refine.converge_meshes`, a
+  linear-permeability proxy of the steel at the thickness given, within
+  :data:`AUTO_PANELS`).  Without failing limit points the test watches probe
+  points :data:`PROBE_OFFSET` off both faces of the steel.  The thin-sheet
+  field is approximate within about two panel sizes of the steel and undefined
+  on the panels' edges.
 * Sizing (``thickness = "auto"``): the auto plates, as one group at one
   common stock thickness (fixed-thickness plates present at theirs), take the
   smallest stock thickness (``[site] stock_thicknesses``) for which every
@@ -54,12 +60,19 @@ from siting.shielding import (
 )
 from siting.shielding.linecharge import line_charge_field
 from siting.shielding.material import STEEL_DENSITY
+from siting.shielding.refine import MeshChoice, choose_meshes, probe_points
 from siting.shielding.sizing import Candidate, Sizing
 from siting.site import model
 from siting.site.build import NamedSource
 
-#: Largest panel of an automatically meshed plate [m].
+#: Panel size of a plate meshed uniformly without the convergence test [m].
 MAX_PANEL = 0.25
+#: Tolerance of the automatic mesh's convergence test (change of |B| / limit).
+MESH_TOL = 0.02
+#: Panels (all plates) the convergence test may solve.
+AUTO_PANELS = 1500
+#: Distance of the probe points from the steel when no limit point fails [m].
+PROBE_OFFSET = 0.3
 #: Panels allowed in one solve (the dense operator needs (2N)^2 doubles).
 MAX_PANELS = 3000
 #: Spacing of the quick check's room samples [m].
@@ -158,23 +171,39 @@ def plate_material(site: model.Site, plate: model.Plate):
     return default_steel(), STEEL_DENSITY
 
 
-def plate_mesh(plate: model.Plate, thickness: float, focus):
-    """The plate's mid-surface panels (see the module docstring)."""
+def plate_mesh(plate: model.Plate, thickness: float, focus, *, observe=None, level=None):
+    """The plate's mid-surface panels (see the module docstring).
+
+    ``level`` None: the uniform :data:`MAX_PANEL` mesh; else the graded mesh of
+    that level toward the sources ``focus`` and the points ``observe``.  A
+    plate's ``panels`` size overrides both.
+    """
     if plate.panels is not None and plate.panels < 3 * thickness:
         raise SitingError(f"plate '{plate.id}': panel size {plate.panels:g} m is below 3 x the "
                           f"thickness {thickness:g} m; the thin-sheet model needs panels wider "
                           "than the steel is thick")
-    size = plate.panels
+    size = plate.panels if plate.panels is not None or level is not None else MAX_PANEL
+    grading = dict(size=size, focus=focus, observe=observe, level=level or 0,
+                   max_panels=MAX_PANELS)
     if plate.wall:
-        extent = max(np.linalg.norm(plate.end - plate.start), plate.top - plate.bottom)
-        grading = dict(size=size, focus=focus, h_max=min(MAX_PANEL, extent / 4),
-                       max_panels=MAX_PANELS)
         return wall_plate(plate.start, plate.end, plate.bottom, plate.top,
                           thickness=thickness, **grading)
-    lo, hi = plate.outline.min(axis=0), plate.outline.max(axis=0)
-    return floor_plate(plate.outline, plate.z, thickness=thickness, focus=focus, size=size,
-                       h_max=min(MAX_PANEL, float(np.max(hi - lo)) / 4),
-                       max_panels=MAX_PANELS)
+    return floor_plate(plate.outline, plate.z, thickness=thickness, **grading)
+
+
+def mesh_choice(site, base, thickness) -> MeshChoice:
+    """Choose the automatic plates' mesh level by the convergence test (module docstring)."""
+    targets = limit_points(site, base, floors={p.floor for p in site.plates})
+    pts, lims = targets.points, targets.limits
+    if not len(pts):  # nothing fails without steel: the field a few decimetres off the steel
+        pts = probe_points([plate_mesh(p, thickness[p.id], base, level=0) for p in site.plates],
+                           PROBE_OFFSET)
+        lims = None
+    return choose_meshes(
+        lambda k, obs: [plate_mesh(p, thickness[p.id], base, observe=obs, level=k)
+                        for p in site.plates],
+        [thickness[p.id] for p in site.plates], [plate_material(site, p)[0] for p in site.plates],
+        base, pts, limits=lims, tol=MESH_TOL, max_panels=AUTO_PANELS)
 
 
 def _room_samples(site, room, spacing):
@@ -320,8 +349,15 @@ def size_group(site, base, meshes, group, targets: Targets, *, stop_at_first=Tru
 
 
 def plate_meshes(site, base, thickness) -> dict:
-    """Meshes of all plates; ``thickness`` per id sets the smallest automatic panel."""
-    return {p.id: plate_mesh(p, thickness[p.id], base) for p in site.plates}
+    """Meshes of all plates; ``thickness`` per id sets the smallest automatic panel.
+
+    Plates with a ``panels`` size keep it; if every plate has one, no convergence
+    test is run, else :func:`mesh_choice` chooses the level of the others.
+    """
+    if all(p.panels is not None for p in site.plates):
+        return {p.id: plate_mesh(p, thickness[p.id], base) for p in site.plates}
+    choice = mesh_choice(site, base, thickness)
+    return {p.id: m for p, m in zip(site.plates, choice.meshes, strict=True)}
 
 
 def _no_stock(site, group, sizing, targets) -> SitingError:
