@@ -11,7 +11,8 @@ import siting.fields.coilset as coilset_module
 from siting.fields.coilset import CoilSet
 from siting.fields.loop import Loop
 from siting.fields.scene import Scene
-from siting.fields.solenoid import Solenoid, ThickSolenoid
+from siting.fields.solenoid import Solenoid
+from siting.fields.thick_solenoid import ThickSolenoid
 
 RNG = np.random.default_rng(99)
 

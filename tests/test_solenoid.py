@@ -18,10 +18,10 @@ from siting.fields.loop import loops_field
 from siting.fields.solenoid import (
     SHEET_TOLERANCE,
     Solenoid,
-    ThickSolenoid,
     solenoid_field,
     solenoids_field,
 )
+from siting.fields.thick_solenoid import ThickSolenoid
 
 RNG = np.random.default_rng(7)
 

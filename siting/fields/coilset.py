@@ -15,7 +15,8 @@ import numpy as np
 
 from siting.fields._frame import as_points
 from siting.fields.loop import Loop, loops_field
-from siting.fields.solenoid import Solenoid, ThickSolenoid, solenoids_field, thick_solenoids_field
+from siting.fields.solenoid import Solenoid, solenoids_field
+from siting.fields.thick_solenoid import ThickSolenoid, thick_solenoids_field
 
 _KINDS = (Loop, Solenoid, ThickSolenoid)
 

@@ -204,18 +204,42 @@ def _loop_block(points, start, size, s, centers, axes, radii, coef, out):
 _GROUP = 8
 
 
+#: Below this many loop-points a call runs on one thread: starting the thread
+#: pool costs more than it saves, and on a busy machine a small parallel call can
+#: stall for milliseconds waiting for the second core.
+PARALLEL_MIN_WORK = 1 << 15
+
+
+@njit(cache=True, fastmath=False, error_model="numpy")
+def _loops_group(points, ig, s, centers, axes, radii, coef, out):
+    n = points.shape[0]
+    n_blocks = (n + _BLOCK - 1) // _BLOCK
+    for ib in range(ig * _GROUP, min((ig + 1) * _GROUP, n_blocks)):
+        start = ib * _BLOCK
+        _loop_block(points, start, min(_BLOCK, n - start), s, centers, axes, radii, coef, out)
+
+
 @njit(parallel=True, cache=True, fastmath=False, error_model="numpy")
 def _loops_kernel(points, centers, axes, radii, coef):
     """Sum of ``k`` loop fields at ``n`` points; ``coef`` = mu0 N I / pi per loop [T m]."""
     n = points.shape[0]
     out = np.empty((n, 3))
-    n_blocks = (n + _BLOCK - 1) // _BLOCK
-    n_groups = (n_blocks + _GROUP - 1) // _GROUP
+    n_groups = ((n + _BLOCK - 1) // _BLOCK + _GROUP - 1) // _GROUP
     for ig in prange(n_groups):
         s = np.empty((_ROWS, _BLOCK))
-        for ib in range(ig * _GROUP, min((ig + 1) * _GROUP, n_blocks)):
-            start = ib * _BLOCK
-            _loop_block(points, start, min(_BLOCK, n - start), s, centers, axes, radii, coef, out)
+        _loops_group(points, ig, s, centers, axes, radii, coef, out)
+    return out
+
+
+@njit(cache=True, fastmath=False, error_model="numpy")
+def _loops_kernel_serial(points, centers, axes, radii, coef):
+    """:func:`_loops_kernel` on one thread, for small calls."""
+    n = points.shape[0]
+    out = np.empty((n, 3))
+    n_groups = ((n + _BLOCK - 1) // _BLOCK + _GROUP - 1) // _GROUP
+    s = np.empty((_ROWS, _BLOCK))
+    for ig in range(n_groups):
+        _loops_group(points, ig, s, centers, axes, radii, coef, out)
     return out
 
 
@@ -257,7 +281,8 @@ def loops_field(points, centers, axes, radii, ampere_turns) -> np.ndarray:
     nit = as_values(ampere_turns, k, "ampere_turns")
     if k == 0 or pts.shape[0] == 0:
         return np.zeros_like(pts)
-    return _loops_kernel(pts, c, w, r, nit * _MU0_OVER_PI)
+    kernel = _loops_kernel if pts.shape[0] * k >= PARALLEL_MIN_WORK else _loops_kernel_serial
+    return kernel(pts, c, w, r, nit * _MU0_OVER_PI)
 
 
 def loop_field(points, *, center, axis, radius, current, turns=1) -> np.ndarray:
