@@ -128,13 +128,13 @@ def test_sum_of_members_mixed_axes():
 
 def test_loops_batched_in_one_call(monkeypatch):
     calls = []
-    original = coilset_module.loops_field
+    original = coilset_module.loops_field_checked
 
     def counting(*args, **kwargs):
         calls.append(len(args[1]))
         return original(*args, **kwargs)
 
-    monkeypatch.setattr(coilset_module, "loops_field", counting)
+    monkeypatch.setattr(coilset_module, "loops_field_checked", counting)
     cs = CoilSet(tuple(Loop([0, 0, 0.1 * i], [0, 0, 1], 0.2 + 0.01 * i, 1.0) for i in range(20)))
     cs.field(RNG.uniform(-1, 1, (10, 3)))
     assert calls == [20]

@@ -14,7 +14,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from siting.fields._frame import as_points
-from siting.fields.loop import Loop, loops_field
+from siting.fields.loop import Loop, loops_field_checked
 from siting.fields.solenoid import Solenoid, solenoids_field
 from siting.fields.thick_solenoid import ThickSolenoid, thick_solenoids_field
 
@@ -63,7 +63,7 @@ class CoilSet:
         pts = as_points(points)
         out = np.zeros_like(pts)
         if self._loops is not None:
-            out += loops_field(pts, *self._loops)
+            out += loops_field_checked(pts, *self._loops)
         if self._thin is not None:
             out += solenoids_field(pts, *self._thin)
         for nodes, arrays in self._thick:

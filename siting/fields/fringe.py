@@ -47,7 +47,7 @@ from siting.fields.fringe_fit import (
     pair_field_rz,
     parse_extents,
 )
-from siting.fields.loop import loops_field
+from siting.fields.loop import loops_field_checked
 from siting.site.model import Extent
 
 __all__ = ["ENVELOPE_MARGIN", "ExtentResidual", "FringeModel", "multipole_field"]
@@ -252,8 +252,8 @@ class FringeModel:
         k = len(self.radius)
         offsets = np.concatenate([self.offset, -self.offset])
         centers = self.center[None, :] + offsets[:, None] * self.axis[None, :]
-        axes = np.broadcast_to(self.axis, (2 * k, 3))
-        out = loops_field(
+        axes = np.tile(self.axis, (2 * k, 1))
+        out = loops_field_checked(
             pts,
             centers,
             axes,

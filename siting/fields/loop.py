@@ -279,10 +279,21 @@ def loops_field(points, centers, axes, radii, ampere_turns) -> np.ndarray:
     if np.any(r <= 0.0):
         raise ValueError(f"radii must be > 0; got {r[r <= 0.0].tolist()}")
     nit = as_values(ampere_turns, k, "ampere_turns")
-    if k == 0 or pts.shape[0] == 0:
-        return np.zeros_like(pts)
-    kernel = _loops_kernel if pts.shape[0] * k >= PARALLEL_MIN_WORK else _loops_kernel_serial
-    return kernel(pts, c, w, r, nit * _MU0_OVER_PI)
+    return loops_field_checked(pts, c, w, r, nit)
+
+
+def loops_field_checked(points, centers, axes, radii, ampere_turns) -> np.ndarray:
+    """:func:`loops_field` for arrays already checked: C-contiguous float64, ``points``
+    (n, 3), ``centers`` and unit ``axes`` (k, 3), ``radii`` > 0 and ``ampere_turns`` (k,).
+
+    For sources that validate their parameters once, so a hot loop of small calls
+    does not pay for the checks again.
+    """
+    k = centers.shape[0]
+    if k == 0 or points.shape[0] == 0:
+        return np.zeros_like(points)
+    kernel = _loops_kernel if points.shape[0] * k >= PARALLEL_MIN_WORK else _loops_kernel_serial
+    return kernel(points, centers, axes, radii, ampere_turns * _MU0_OVER_PI)
 
 
 def loop_field(points, *, center, axis, radius, current, turns=1) -> np.ndarray:
@@ -362,8 +373,8 @@ class Loop:
 
     def field(self, points) -> np.ndarray:
         """B (n, 3) [T] at ``points`` (n, 3) [m]; NaN on the wire."""
-        return loops_field(
-            points,
+        return loops_field_checked(
+            as_points(points),
             self.center[None, :],
             self.axis[None, :],
             np.array([self.radius]),
