@@ -94,9 +94,11 @@ def main() -> None:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     parser.add_argument("--spacing", type=float, default=None, help="plan grid spacing [m]")
     args = parser.parse_args()
-    # warm the compiled kernels so compile time is not counted
+    # warm the compiled kernels (their one-thread and parallel variants) so compile
+    # time is not counted
     for path in sorted(ROOMS.glob("*.toml")):
         run(path, 1.0)
+        run(path, 0.1)
     for path in sorted(ROOMS.glob("*.toml")):
         print(run(path, args.spacing), flush=True)
 
