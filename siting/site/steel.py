@@ -191,9 +191,13 @@ def plate_mesh(plate: model.Plate, thickness: float, focus, *, observe=None, lev
     return floor_plate(plate.outline, plate.z, thickness=thickness, **grading)
 
 
-def mesh_choice(site, base, thickness) -> MeshChoice:
-    """Choose the automatic plates' mesh level by the convergence test (module docstring)."""
-    targets = limit_points(site, base, floors={p.floor for p in site.plates})
+def mesh_choice(site, base, thickness, targets: Targets | None = None) -> MeshChoice:
+    """Choose the automatic plates' mesh level by the convergence test (module docstring).
+
+    ``targets``: the limit points on the plates' floors, if already found.
+    """
+    if targets is None:
+        targets = limit_points(site, base, floors={p.floor for p in site.plates})
     pts, lims = targets.points, targets.limits
     if not len(pts):  # nothing fails without steel: the field a few decimetres off the steel
         pts = probe_points([plate_mesh(p, thickness[p.id], base, level=0) for p in site.plates],
@@ -348,15 +352,16 @@ def size_group(site, base, meshes, group, targets: Targets, *, stop_at_first=Tru
     return Sizing(chosen, tuple(out)), tuple(verified), chosen_sol
 
 
-def plate_meshes(site, base, thickness) -> dict:
+def plate_meshes(site, base, thickness, targets: Targets | None = None) -> dict:
     """Meshes of all plates; ``thickness`` per id sets the smallest automatic panel.
 
     Plates with a ``panels`` size keep it; if every plate has one, no convergence
-    test is run, else :func:`mesh_choice` chooses the level of the others.
+    test is run, else :func:`mesh_choice` chooses the level of the others (with
+    ``targets``, the limit points on the plates' floors, if already found).
     """
     if all(p.panels is not None for p in site.plates):
         return {p.id: plate_mesh(p, thickness[p.id], base) for p in site.plates}
-    choice = mesh_choice(site, base, thickness)
+    choice = mesh_choice(site, base, thickness, targets)
     return {p.id: m for p, m in zip(site.plates, choice.meshes, strict=True)}
 
 
@@ -395,11 +400,14 @@ def build_shielding(site: model.Site, sources) -> tuple[list[NamedSource], Shiel
     thick = {p.id: p.thickness for p in site.plates}
     group = tuple(p.id for p in site.plates if p.thickness is None)
     stock_max = max(site.info.stock_thicknesses)
-    meshes = plate_meshes(site, base, {k: v or stock_max for k, v in thick.items()})
+    plate_floors = {p.floor for p in site.plates}
+    group_floors = {p.floor for p in site.plates if p.id in group}
+    # the limit points serve both the mesh choice and the sizing when their floors agree
+    shared = limit_points(site, base, floors=plate_floors) if group_floors == plate_floors else None
+    meshes = plate_meshes(site, base, {k: v or stock_max for k, v in thick.items()}, shared)
     sizing = targets = None
     if group:
-        floors = {p.floor for p in site.plates if p.id in group}
-        targets = limit_points(site, base, floors=floors)
+        targets = shared if shared is not None else limit_points(site, base, floors=group_floors)
         sizing, verified, sol = size_group(site, base, meshes, group, targets)
         if sizing.chosen is None:
             raise _no_stock(site, group, sizing, targets)
