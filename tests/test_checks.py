@@ -283,6 +283,37 @@ def test_room_on_the_floor_above_a_dipole():
     np.testing.assert_allclose(res.floor_fields["u"].grid.heights, [3.5, 4.0, 4.5])
 
 
+def test_rooms_of_all_floors_are_searched_together():
+    # three floors around a dipole: one search for the whole site gives each room the
+    # same maximum, to the last bit, as checking the room on its own floor, in fewer
+    # scene calls than one search per floor
+    from siting.site.model import Dipole
+
+    floors = (Floor("b", "basement", -3.0, 3.0), *FLOOR, Floor("u", "upper", 4.0, 3.0))
+    info = SiteInfo("t", "m", "mT", (ACCESS,), (0.5, 1.0, 1.5), ACCESS)
+    rooms = tuple(
+        Room(f"{f}{k}", f, "r", 2, np.asarray(rect(x, -1.0, x + 2.5, 1.5), float))
+        for f in ("b", "g", "u")
+        for k, x in enumerate((-4.0, 0.4, 3.1))
+    )
+    site = Site(info, floors, rooms=rooms, dipoles=(Dipole("d", "g", np.zeros(3), np.zeros(3)),))
+    scene = Counting(Scene([PointDipole([0.2, 0.1, 1.0], [0.0, 0.3 * M, M])]))
+    res = check_site(site, scene, spacing=0.25)
+    together = scene.calls
+    scene.calls = 0
+    by_id = {r.id: r for r in rooms}
+    alone_calls = []
+    for r in res.rooms:
+        scene.calls = 0
+        alone = check_room(site, scene, by_id[r.id], res.floor_fields[r.floor])
+        alone_calls.append(scene.calls)
+        assert alone.max_T == r.max_T
+        np.testing.assert_array_equal(alone.at_m, r.at_m)
+    # 3 floors x 3 heights for the grids, then as many calls as the longest search
+    assert together - 9 == max(alone_calls)
+    assert {r.status for r in res.rooms} == {"pass", "fail"}
+
+
 @settings(max_examples=15, deadline=None, derandomize=True)
 @given(
     angle=st.floats(0.0, np.pi),

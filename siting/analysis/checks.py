@@ -139,25 +139,30 @@ def _room_result(site, room, poly, mx, at, nan_seen, floor_field, region):
     )
 
 
-def _check_rooms(site, scene, rooms, floor_field, regions):
-    if not rooms:
-        return []
+def _outlines(rooms):
     polys = [shapely.make_valid(Polygon(r.outline)) for r in rooms]
     # a self-intersecting outline is checked over its convex hull, which contains
     # it: the maximum found is then an upper bound (on the safe side)
-    polys = [p if isinstance(p, Polygon) else p.convex_hull for p in polys]
-    mx, at, nan_seen = room_maxima(scene, polys, floor_field)
-    out = []
-    for i, room in enumerate(rooms):
-        limit = site.room_limit(room)
-        region = None
-        if limit is not None:
-            if limit not in regions:
-                regions[limit] = level_region(floor_field, limit)
-            region = regions[limit]
-        out.append(
-            _room_result(site, room, polys[i], mx[i], at[i], nan_seen[i], floor_field, region)
-        )
+    return [p if isinstance(p, Polygon) else p.convex_hull for p in polys]
+
+
+def _check_rooms(site, scene, floors):
+    """Room results for ``floors``: a sequence of (rooms, floor_field, regions),
+    ``regions`` a dict level -> :func:`level_region`, filled as needed.  One
+    search (:func:`room_maxima`) covers the rooms of every floor."""
+    floors = [(rooms, ff, regions, _outlines(rooms)) for rooms, ff, regions in floors]
+    mx, at, nan_seen = room_maxima(scene, [(polys, ff) for _, ff, _, polys in floors])
+    out, k = [], 0
+    for rooms, ff, regions, polys in floors:
+        for room, poly in zip(rooms, polys, strict=True):
+            limit = site.room_limit(room)
+            region = None
+            if limit is not None:
+                if limit not in regions:
+                    regions[limit] = level_region(ff, limit)
+                region = regions[limit]
+            out.append(_room_result(site, room, poly, mx[k], at[k], nan_seen[k], ff, region))
+            k += 1
     return out
 
 
@@ -184,7 +189,7 @@ def check_room(site: Site, scene, room: Room, floor_field: FloorField) -> RoomRe
             f"room {room.id!r} is on floor {room.floor!r}, "
             f"the field map on {floor_field.grid.floor!r}"
         )
-    return _check_rooms(site, scene, [room], floor_field, {})[0]
+    return _check_rooms(site, scene, [([room], floor_field, {})])[0]
 
 
 def _check_equipment_all(scene, items):
@@ -270,7 +275,8 @@ def check_site(
         region is not contained.
     """
     report = progress or (lambda step, i, n: None)
-    fields, rooms, access = {}, [], []
+    access_limit = float(site.info.access_limit)
+    fields, floors = {}, []
     n = len(site.floors)
     for i, fl in enumerate(site.floors, start=1):
         try:
@@ -280,9 +286,13 @@ def check_site(
         ff = band_max(scene, grid)
         fields[fl.id] = ff
         report("field", i, n)
-        regions = {float(site.info.access_limit): level_region(ff, site.info.access_limit)}
-        rooms += _check_rooms(site, scene, [r for r in site.rooms if r.floor == fl.id], ff, regions)
-        access.append(access_boundary(site, ff, region=regions[float(site.info.access_limit)]))
+        regions = {access_limit: level_region(ff, access_limit)}
+        floors.append((i, [r for r in site.rooms if r.floor == fl.id], ff, regions))
+    results = iter(_check_rooms(site, scene, [f[1:] for f in floors]))
+    rooms, access = [], []
+    for i, floor_rooms, ff, regions in floors:
+        rooms += [next(results) for _ in floor_rooms]
+        access.append(access_boundary(site, ff, region=regions[access_limit]))
         report("rooms", i, n)
     equipment = _check_equipment_all(scene, list(site.equipment))
     report("equipment", 1, 1)

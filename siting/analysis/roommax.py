@@ -4,7 +4,9 @@ In a current-free region every Cartesian component of B is harmonic, so |B|^2 is
 subharmonic and its maximum over a room's prism lies on the prism's boundary
 (weak maximum principle; L. C. Evans, *Partial Differential Equations*, 2nd ed.,
 2010, sec. 2.2.3, section number from memory).  See :mod:`siting.analysis.checks`
-for how the search is laid out; this module holds the search itself.
+for how the search is laid out; this module holds the search itself.  The rooms
+of every floor are searched together, so each step of the search is one
+vectorised ``scene.magnitude`` call for the whole site.
 """
 
 from __future__ import annotations
@@ -13,14 +15,13 @@ from dataclasses import dataclass
 
 import numpy as np
 import shapely
-from scipy.ndimage import maximum_filter
-
-from siting.analysis.grid import FloorField
 
 #: Starts of the local search per room on the band faces and on the walls.
 N_FACE_STARTS, N_WALL_STARTS = 2, 2
 #: Compass search stops below this step, in grid spacings.
 STEP_TOL = 1e-2
+#: The eight neighbours of a plan node, (dy, dx).
+_NEIGHBOURS = [(dy, dx) for dy in (-1, 0, 1) for dx in (-1, 0, 1) if dy or dx]
 
 
 def _compass_search(evaluate, x0, base, lo, hi):
@@ -76,6 +77,16 @@ def _compass_search(evaluate, x0, base, lo, hi):
     return x, f, nan_seen
 
 
+def _top_per_group(values, group, keep, n):
+    """Indices of the ``n`` largest ``values`` of each group where ``keep``, and
+    each one's rank (0 = largest) within its group."""
+    idx = np.flatnonzero(keep)
+    idx = idx[np.lexsort((-values[idx], group[idx]))]
+    g = group[idx]
+    rank = np.arange(idx.size) - np.searchsorted(g, g, side="left")
+    return idx[rank < n], rank[rank < n]
+
+
 @dataclass(frozen=True, eq=False)
 class _Walls:
     """The outlines of many rooms as one set of segments, by arc length."""
@@ -112,122 +123,181 @@ class _Walls:
         g = self.s0[self.first[room]] + np.mod(s, self.perimeter[room])
         seg = np.searchsorted(self.s0, g, side="right") - 1
         seg = np.clip(seg, self.first[room], self.last[room])
-        t = (g - self.s0[seg]) / np.hypot(*self.vec[seg].T)
-        return self.start[seg] + np.clip(t, 0.0, 1.0)[:, None] * self.vec[seg]
+        v = self.vec[seg]
+        t = (g - self.s0[seg]) / np.hypot(v[:, 0], v[:, 1])
+        return self.start[seg] + np.clip(t, 0.0, 1.0)[:, None] * v
 
     def samples(self, spacing):
-        """Arc lengths (N,) and rooms (N,) of samples at most ``spacing`` apart,
-        every vertex included."""
+        """Arc lengths (N,) and rooms (N,) of samples at most ``spacing[room]``
+        apart, every vertex included, ordered by room."""
         length = np.hypot(*self.vec.T)
-        n = np.maximum(np.ceil(length / spacing).astype(int), 1)
+        seg_room = np.repeat(np.arange(self.first.size), self.last - self.first + 1)
+        n = np.maximum(np.ceil(length / spacing[seg_room]).astype(int), 1)
         seg = np.repeat(np.arange(length.size), n)
         frac = (np.arange(seg.size) - np.repeat(np.cumsum(n) - n, n)) / n[seg]
-        room = np.searchsorted(self.first, seg, side="right") - 1
+        room = seg_room[seg]
         return self.s0[seg] + frac * length[seg] - self.s0[self.first[room]], room
 
 
-def _top(values, keep, n):
-    """Flat indices of the ``n`` largest ``values`` where ``keep``."""
-    idx = np.flatnonzero(keep)
-    return idx[np.argsort(values[idx])[::-1][:n]]
+def _face_starts(geoms, floor_field, nan_seen, node_best, node_at):
+    """Starts (x, y, z) and rooms for the face search on one floor: the local
+    maxima of the band maximum among each room's nodes, put on the nearer band face.
 
-
-def _face_starts(polys, floor_field, nan_seen, node_best, node_at):
-    """Starts (x, y, z) and rooms for the face search: the local maxima of the
-    band maximum among each room's nodes, put on the nearer band face.
-
-    ``node_best`` (r,) and ``node_at`` (r, 3) receive each room's largest node
-    value at its own height: with a source inside the prism the maximum need
-    not lie on the boundary, and the grid node is then the better estimate.
+    A node is a local maximum when no neighbour inside the same room is larger;
+    each room's nodes sit in a box padded with -inf, all boxes in one flat array.
+    ``nan_seen``, ``node_best`` (r,) and ``node_at`` (r, 3) are updated in place;
+    the last two receive each room's largest node value and its position: with a
+    source inside the prism the maximum need not lie on the boundary, and the
+    grid node is then the better estimate.
     """
     g = floor_field.grid
     z0, z1 = g.band
-    starts, rooms = [], []
-    for i, p in enumerate(polys):
-        x0, y0, x1, y1 = p.bounds
-        ix = slice(np.searchsorted(g.x, x0), np.searchsorted(g.x, x1, side="right"))
-        iy = slice(np.searchsorted(g.y, y0), np.searchsorted(g.y, y1, side="right"))
-        xx, yy = np.meshgrid(g.x[ix], g.y[iy])
-        inside = shapely.intersects_xy(p, xx, yy)
-        nan_seen[i] |= bool(np.any(floor_field.invalid[iy, ix] & inside))
-        vals = np.where(inside, floor_field.bmax[iy, ix], -np.inf)
-        vals[np.isnan(vals)] = -np.inf
-        peak = vals == maximum_filter(vals, size=3, mode="constant", cval=-np.inf)
-        sel = _top(vals.ravel(), peak.ravel() & (vals.ravel() > -np.inf), N_FACE_STARTS)
-        if sel.size == 0:  # a room narrower than the grid: start from a point inside
-            q = p.representative_point()
-            starts += [(q.x, q.y, z0), (q.x, q.y, z1)]
-            rooms += [i, i]
-            continue
-        zs = floor_field.zmax[iy, ix].ravel()[sel]
-        top = sel[np.argmax(vals.ravel()[sel])]
-        node_best[i] = vals.ravel()[top]
-        node_at[i] = (xx.ravel()[top], yy.ravel()[top], floor_field.zmax[iy, ix].ravel()[top])
-        zs = np.where(zs - z0 <= z1 - zs, z0, z1)
-        starts += list(zip(xx.ravel()[sel], yy.ravel()[sel], zs, strict=True))
-        rooms += [i] * sel.size
-    return np.array(starts, dtype=np.float64).reshape(-1, 3), np.array(rooms, dtype=int)
+    nr = len(geoms)
+    b = shapely.bounds(geoms)
+    ix0, ix1 = np.searchsorted(g.x, b[:, 0]), np.searchsorted(g.x, b[:, 2], side="right")
+    iy0, iy1 = np.searchsorted(g.y, b[:, 1]), np.searchsorted(g.y, b[:, 3], side="right")
+    nx, ny = ix1 - ix0, iy1 - iy0
+    pw = nx + 2
+    size = pw * (ny + 2)
+    off = np.cumsum(size) - size
+    cnt = nx * ny
+    room = np.repeat(np.arange(nr), cnt)
+    local = np.arange(room.size) - np.repeat(np.cumsum(cnt) - cnt, cnt)
+    j, i = np.divmod(local, np.maximum(nx, 1)[room])
+    gx, gy = ix0[room] + i, iy0[room] + j
+    inside = shapely.intersects_xy(geoms[room], g.x[gx], g.y[gy])
+    nan_seen |= np.bincount(room, inside & floor_field.invalid[gy, gx], minlength=nr) > 0
+    val = floor_field.bmax[gy, gx]
+    val = np.where(inside & ~np.isnan(val), val, -np.inf)
+    key = off[room] + (j + 1) * pw[room] + (i + 1)
+    pad = np.full(int(size.sum()), -np.inf)
+    pad[key] = val
+    around = np.full(val.size, -np.inf)
+    for dy, dx in _NEIGHBOURS:
+        np.maximum(around, pad[key + dy * pw[room] + dx], out=around)
+    sel, rank = _top_per_group(val, room, (val >= around) & (val > -np.inf), N_FACE_STARTS)
+    top = sel[rank == 0]
+    node_best[room[top]] = val[top]
+    node_at[room[top]] = np.column_stack(
+        [g.x[gx[top]], g.y[gy[top]], floor_field.zmax[gy[top], gx[top]]]
+    )
+    zs = floor_field.zmax[gy[sel], gx[sel]]
+    starts = [np.column_stack([g.x[gx[sel]], g.y[gy[sel]], np.where(zs - z0 <= z1 - zs, z0, z1)])]
+    rooms = [room[sel]]
+    # a room narrower than the grid: start from a point inside, on both faces
+    for k in np.setdiff1d(np.arange(nr), room[sel]):
+        q = geoms[k].representative_point()
+        starts.append(np.array([(q.x, q.y, z0), (q.x, q.y, z1)]))
+        rooms.append(np.array([k, k]))
+    return np.concatenate(starts), np.concatenate(rooms)
 
 
-def room_maxima(scene, polys, floor_field: FloorField):
-    """Max |B| over each room's prism: values (r,), positions (r, 3), NaN met (r,)."""
-    g = floor_field.grid
-    h = g.spacing
-    z0, z1 = g.band
-    nr = len(polys)
+def _wall_starts(scene, walls, groups, group_of, nan_seen):
+    """Starts (arc length, z) and rooms for the wall search on every floor: the best
+    local maxima of the interpolated band maximum along each outline (the model
+    itself where the interpolation stencil has undefined nodes)."""
+    spacing = np.array([ff.grid.spacing for _, ff in groups])[group_of]
+    s, room = walls.samples(spacing)
+    wxy = walls.xy(room, s)
+    vals, wz = np.empty(s.size), np.empty(s.size)
+    near_bad = np.zeros(s.size, dtype=bool)
+    for gi, (_, ff) in enumerate(groups):
+        m = group_of[room] == gi
+        vals[m], wz[m], near_bad[m] = ff.interpolate(wxy[m])
+    bad = np.flatnonzero(near_bad)
+    if bad.size:
+        heights = [groups[gi][1].grid.heights for gi in group_of[room[bad]]]
+        k = np.array([h.size for h in heights])
+        zq = np.concatenate(heights)
+        q = np.column_stack([np.repeat(wxy[bad], k, axis=0), zq])
+        mag = np.asarray(scene.magnitude(q), dtype=np.float64)
+        row = np.repeat(np.arange(bad.size), k)
+        np.logical_or.at(nan_seen, room[bad[row]], np.isnan(mag))
+        mag = np.where(np.isnan(mag), -np.inf, mag)
+        top = np.full(bad.size, -np.inf)
+        np.maximum.at(top, row, mag)
+        first = np.cumsum(k) - k
+        hit = mag == top[row]
+        best = np.minimum.reduceat(np.where(hit, np.arange(zq.size), zq.size), first)
+        vals[bad], wz[bad] = top, zq[best]
+    vals[np.isnan(vals)] = -np.inf
+    # neighbours along each closed outline (samples are ordered by room)
+    first = np.searchsorted(room, room, side="left")
+    last = np.searchsorted(room, room, side="right") - 1
+    idx = np.arange(s.size)
+    prev = np.where(idx > first, idx - 1, last)
+    nxt = np.where(idx < last, idx + 1, first)
+    peak = (vals >= vals[prev]) & (vals >= vals[nxt]) & (vals > -np.inf)
+    sel, _ = _top_per_group(vals, room, peak, N_WALL_STARTS)
+    return np.column_stack([s[sel], wz[sel]]), room[sel]
+
+
+def room_maxima(scene, groups):
+    """Max |B| over the prisms of many rooms, on one or more floors.
+
+    Parameters
+    ----------
+    scene : object with ``magnitude(points (n, 3) [m]) -> (n,) [T]``
+        The field model; each step of the search is one call.
+    groups : sequence of (polys, floor_field)
+        The rooms' plan outlines (shapely Polygons) on each floor, with the
+        floor's band maximum.
+
+    Returns
+    -------
+    best : ndarray, shape (r,) [T]
+        Max |B| per room, rooms in the order of ``groups`` (NaN: none valid).
+    at : ndarray, shape (r, 3) [m]
+        Absolute position of each maximum.
+    nan_seen : ndarray of bool, shape (r,)
+        True where a sampled point of the prism was undefined.
+    """
+    groups = [(list(polys), ff) for polys, ff in groups if len(polys)]
+    counts = [len(polys) for polys, _ in groups]
+    nr = int(sum(counts))
     best = np.full(nr, -np.inf)
     at = np.full((nr, 3), np.nan)
     nan_seen = np.zeros(nr, dtype=bool)
-    for p in polys:
-        shapely.prepare(p)
-    geoms = np.array(polys, dtype=object)
+    if nr == 0:
+        return best, at, nan_seen
+    geoms = np.array([p for polys, _ in groups for p in polys], dtype=object)
+    shapely.prepare(geoms)
+    group_of = np.repeat(np.arange(len(groups)), counts)
+    first_room = np.cumsum(counts) - counts
 
     # faces: starts (x, y) on the band face of each start, kept inside the outline
     node_best = np.full(nr, -np.inf)
     node_at = np.full((nr, 3), np.nan)
-    fs, froom = _face_starts(polys, floor_field, nan_seen, node_best, node_at)
+    fs, froom = [np.empty((0, 3))], [np.empty(0, dtype=int)]
+    for gi, (_, ff) in enumerate(groups):
+        sl = slice(first_room[gi], first_room[gi] + counts[gi])
+        st, rm = _face_starts(geoms[sl], ff, nan_seen[sl], node_best[sl], node_at[sl])
+        fs.append(st)
+        froom.append(rm + first_room[gi])
+    fs, froom = np.concatenate(fs), np.concatenate(froom)
 
-    # walls: samples at the grid spacing, valued by interpolating the band maximum
-    # (the model itself where the stencil has undefined nodes); starts (arc length,
-    # z) at the best local maxima along each outline
-    walls = _Walls.of(polys)
-    s, room = walls.samples(h)
-    wxy = walls.xy(room, s)
-    vals, wz, near_bad = floor_field.interpolate(wxy)
-    if near_bad.any():
-        q = np.repeat(wxy[near_bad], g.heights.size, axis=0)
-        zq = np.tile(g.heights, int(near_bad.sum()))
-        mag = np.asarray(scene.magnitude(np.column_stack([q, zq]))).reshape(-1, g.heights.size)
-        np.logical_or.at(nan_seen, room[near_bad], np.isnan(mag).any(axis=1))
-        mag = np.where(np.isnan(mag), -np.inf, mag)
-        vals[near_bad] = mag.max(axis=1)
-        wz[near_bad] = g.heights[np.argmax(mag, axis=1)]
-    vals[np.isnan(vals)] = -np.inf
-    ws, wroom = [], []
-    for i in range(nr):
-        cols = np.flatnonzero(room == i)
-        v = vals[cols]
-        peak = (v >= np.roll(v, 1)) & (v >= np.roll(v, -1)) & (v > -np.inf)
-        j = cols[_top(v, peak, N_WALL_STARTS)]
-        ws += list(zip(s[j], wz[j], strict=True))
-        wroom += [i] * j.size
-    ws = np.array(ws, dtype=np.float64).reshape(-1, 2)
+    # walls: starts (arc length, z) at the best local maxima along each outline
+    walls = _Walls.of(geoms)
+    ws, wroom = _wall_starts(scene, walls, groups, group_of, nan_seen)
 
-    # one compass search over both kinds: rows [0, nf) faces, [nf, n) walls
+    # one compass search over both kinds and every floor: rows [0, nf) faces, [nf, n) walls
     nf = len(fs)
     x0 = np.concatenate([fs[:, :2], ws])
-    rooms = np.concatenate([froom, np.array(wroom, dtype=int)])
-    base = np.tile([h, h], (len(x0), 1))
-    base[nf:, 1] = (z1 - z0) / 2
+    rooms = np.concatenate([froom, wroom])
+    h = np.array([ff.grid.spacing for _, ff in groups])[group_of[rooms]]
+    band = np.array([ff.grid.band for _, ff in groups])[group_of[rooms]]
+    base = np.column_stack([h, h])
+    base[nf:, 1] = (band[nf:, 1] - band[nf:, 0]) / 2
     lo = np.full_like(x0, -np.inf)
     hi = np.full_like(x0, np.inf)
-    lo[nf:, 1], hi[nf:, 1] = z0, z1
+    lo[nf:, 1], hi[nf:, 1] = band[nf:, 0], band[nf:, 1]
+    face_z = np.concatenate([fs[:, 2], np.full(len(ws), np.nan)])
 
     def to_xyz(u, start):
         xyz = np.empty((len(u), 3))
         face = start < nf
         xyz[face, :2] = u[face]
-        xyz[face, 2] = fs[start[face], 2]
+        xyz[face, 2] = face_z[start[face]]
         wall = ~face
         xyz[wall, :2] = walls.xy(rooms[start[wall]], u[wall, 0])
         xyz[wall, 2] = u[wall, 1]
@@ -235,7 +305,9 @@ def room_maxima(scene, polys, floor_field: FloorField):
 
     def evaluate(u, start):
         out = np.full(len(u), -np.inf)
-        ok = (start >= nf) | shapely.intersects_xy(geoms[rooms[start]], u[:, 0], u[:, 1])
+        ok = start >= nf
+        face = ~ok
+        ok[face] = shapely.intersects_xy(geoms[rooms[start[face]]], u[face, 0], u[face, 1])
         if ok.any():
             out[ok] = scene.magnitude(to_xyz(u[ok], start[ok]))
         return out
