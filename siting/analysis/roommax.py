@@ -20,11 +20,14 @@ import shapely
 N_FACE_STARTS, N_WALL_STARTS = 2, 2
 #: Compass search stops below this step, in grid spacings.
 STEP_TOL = 1e-2
+#: Step lengths polled at once, as fractions of a start's step, and the factor
+#: by which the step shrinks when none improves.
+POLL_SCALES, SHRINK = (1.0, 0.5, 0.25), 0.125
 #: The eight neighbours of a plan node, (dy, dx).
 _NEIGHBOURS = [(dy, dx) for dy in (-1, 0, 1) for dx in (-1, 0, 1) if dy or dx]
 
 
-def _compass_search(evaluate, x0, base, lo, hi):
+def _compass_search(evaluate, x0, base, lo, hi, clip=None):
     """Maximise ``evaluate`` from many starts at once by compass search.
 
     Parameters
@@ -36,6 +39,9 @@ def _compass_search(evaluate, x0, base, lo, hi):
         The starts.
     base, lo, hi : ndarray, shape (n, d)
         Initial step and bounds per start and coordinate.
+    clip : callable(x (m, d), trial (m, k, d), start (m,)) -> (m, k, d), optional
+        Moves trials back towards ``x`` onto the feasible set where it can
+        (after the bounds); trials it leaves infeasible score -inf.
 
     Returns
     -------
@@ -43,14 +49,24 @@ def _compass_search(evaluate, x0, base, lo, hi):
     f : ndarray, shape (n,)
     nan_seen : ndarray of bool, shape (n,)
 
-    Each iteration tries ``x +- step * base`` along every coordinate for all
-    active starts in one ``evaluate`` call (trials that the bounds clip back
-    onto ``x`` are skipped), moves each start to its best improvement or
-    halves its step, until every step is below ``STEP_TOL``.
+    Each iteration polls ``x +- c * step * base`` along every coordinate at
+    the scales c in ``POLL_SCALES`` for all active starts in one ``evaluate``
+    call (the bounds and ``clip`` move trials back onto the feasible set;
+    trials left on ``x`` are skipped).  A start
+    moves to its best improvement and keeps its step; without improvement
+    its step shrinks by ``SHRINK``.  It stops when
+    every step is below ``STEP_TOL``.  This is a generalised pattern search
+    (V. Torczon, "On the convergence of pattern search algorithms", SIAM J.
+    Optim. 7, 1997): polling several scales at once takes fewer iterations,
+    which is what costs here (each is one call into the field model), most of
+    all when the maximum lies on a constraint (a wall) that a single scale
+    can only approach by halving and moving in turn.
     """
     x = np.array(x0, dtype=np.float64)
     n, d = x.shape
-    dirs = np.concatenate([np.eye(d), -np.eye(d)])
+    unit = np.concatenate([np.eye(d), -np.eye(d)])
+    scale = np.repeat(POLL_SCALES, 2 * d)[:, None]
+    dirs = np.tile(unit, (len(POLL_SCALES), 1)) * scale
     f = evaluate(x, np.arange(n)) if n else np.empty(0)
     nan_seen = np.isnan(f)
     f = np.where(nan_seen, -np.inf, f)
@@ -61,6 +77,8 @@ def _compass_search(evaluate, x0, base, lo, hi):
             break
         trial = x[act, None, :] + dirs[None] * (step[act, None, None] * base[act, None, :])
         trial = np.clip(trial, lo[act, None, :], hi[act, None, :])
+        if clip is not None:
+            trial = clip(x[act], trial, act)
         todo = np.any(trial != x[act, None, :], axis=2)
         vals = np.full(todo.shape, -np.inf)
         owner = np.broadcast_to(act[:, None], todo.shape)
@@ -73,7 +91,7 @@ def _compass_search(evaluate, x0, base, lo, hi):
         up = bv > f[act]
         x[act[up]] = trial[up, best[up]]
         f[act[up]] = bv[up]
-        step[act[~up]] *= 0.5
+        step[act[~up]] *= SHRINK
     return x, f, nan_seen
 
 
@@ -137,6 +155,29 @@ class _Walls:
         frac = (np.arange(seg.size) - np.repeat(np.cumsum(n) - n, n)) / n[seg]
         room = seg_room[seg]
         return self.s0[seg] + frac * length[seg] - self.s0[self.first[room]], room
+
+
+def _half_planes(geoms):
+    """Outward normals (r, m, 2) and offsets (r, m) of the edges of convex rooms,
+    so that a plan point p is inside room i when ``normal[i] @ p <= offset[i]``
+    for every edge; padded with zero normals, and all zero for a room that is
+    not convex (its trials are not clipped)."""
+    rings = []
+    for p in geoms:
+        hull = p.convex_hull
+        convex = p.area >= hull.area * (1 - 1e-9) and hull.geom_type == "Polygon"
+        rings.append(np.asarray(shapely.orient_polygons(hull).exterior.coords) if convex else None)
+    m = max((len(r) - 1 for r in rings if r is not None), default=0)
+    normal = np.zeros((len(geoms), max(m, 1), 2))
+    offset = np.zeros((len(geoms), max(m, 1)))
+    for i, ring in enumerate(rings):
+        if ring is None:
+            continue
+        e = np.diff(ring, axis=0)  # counter-clockwise: the outward normal is (e_y, -e_x)
+        nrm = np.column_stack([e[:, 1], -e[:, 0]])
+        normal[i, : len(e)] = nrm
+        offset[i, : len(e)] = np.einsum("ij,ij->i", nrm, ring[:-1])
+    return normal, offset
 
 
 def _face_starts(geoms, floor_field, nan_seen, node_best, node_at):
@@ -303,6 +344,24 @@ def room_maxima(scene, groups):
         xyz[wall, 2] = u[wall, 1]
         return xyz
 
+    normal, offset = _half_planes(geoms)
+
+    def clip(x, trial, start):
+        # faces of convex rooms: a trial outside is moved back along its ray from x
+        # to the outline, where the maximum often lies (maximum principle)
+        face = start < nf
+        if not face.any():
+            return trial
+        r = rooms[start[face]]
+        xf, d = x[face], trial[face] - x[face, None, :]
+        a = np.einsum("rmc,rkc->rkm", normal[r], d)
+        b = (offset[r] - np.einsum("rmc,rc->rm", normal[r], xf))[:, None, :]
+        with np.errstate(divide="ignore", invalid="ignore"):
+            t = np.where(a > 0, np.maximum(b, 0.0) / a, np.inf).min(axis=2, initial=1.0)
+        trial = trial.copy()
+        trial[face] = xf[:, None, :] + t[:, :, None] * d
+        return trial
+
     def evaluate(u, start):
         out = np.full(len(u), -np.inf)
         ok = start >= nf
@@ -312,7 +371,7 @@ def room_maxima(scene, groups):
             out[ok] = scene.magnitude(to_xyz(u[ok], start[ok]))
         return out
 
-    u, fu, bad = _compass_search(evaluate, x0, base, lo, hi)
+    u, fu, bad = _compass_search(evaluate, x0, base, lo, hi, clip)
     np.logical_or.at(nan_seen, rooms, bad)
     order = np.argsort(fu)  # ascending: the last write per room is its best
     best[rooms[order]] = fu[order]
