@@ -285,8 +285,8 @@ def test_room_on_the_floor_above_a_dipole():
 
 def test_rooms_of_all_floors_are_searched_together():
     # three floors around a dipole: one search for the whole site gives each room the
-    # same maximum, to the last bit, as checking the room on its own floor, in fewer
-    # scene calls than one search per floor
+    # same maximum (to rounding: arc lengths along the outlines are counted site-wide)
+    # as checking the room on its own floor, in fewer scene calls than one search per floor
     from siting.site.model import Dipole
 
     floors = (Floor("b", "basement", -3.0, 3.0), *FLOOR, Floor("u", "upper", 4.0, 3.0))
@@ -307,8 +307,8 @@ def test_rooms_of_all_floors_are_searched_together():
         scene.calls = 0
         alone = check_room(site, scene, by_id[r.id], res.floor_fields[r.floor])
         alone_calls.append(scene.calls)
-        assert alone.max_T == r.max_T
-        np.testing.assert_array_equal(alone.at_m, r.at_m)
+        assert alone.max_T == pytest.approx(r.max_T, rel=1e-12)
+        np.testing.assert_allclose(alone.at_m, r.at_m, rtol=0, atol=1e-9)
     # 3 floors x 3 heights for the grids, then as many calls as the longest search
     assert together - 9 == max(alone_calls)
     assert {r.status for r in res.rooms} == {"pass", "fail"}

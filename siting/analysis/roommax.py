@@ -23,6 +23,8 @@ STEP_TOL = 1e-2
 #: Step lengths polled at once, as fractions of a start's step, and the factor
 #: by which the step shrinks when none improves.
 POLL_SCALES, SHRINK = (1.0, 0.5, 0.25), 0.125
+#: Factor by which the step grows when the longest polled step improved.
+GROW = 2.0
 #: The eight neighbours of a plan node, (dy, dx).
 _NEIGHBOURS = [(dy, dx) for dy in (-1, 0, 1) for dx in (-1, 0, 1) if dy or dx]
 
@@ -52,30 +54,40 @@ def _compass_search(evaluate, x0, base, lo, hi, clip=None):
     Each iteration polls ``x +- c * step * base`` along every coordinate at
     the scales c in ``POLL_SCALES`` for all active starts in one ``evaluate``
     call (the bounds and ``clip`` move trials back onto the feasible set;
-    trials left on ``x`` are skipped).  A start
-    moves to its best improvement and keeps its step; without improvement
-    its step shrinks by ``SHRINK``.  It stops when
-    every step is below ``STEP_TOL``.  This is a generalised pattern search
-    (V. Torczon, "On the convergence of pattern search algorithms", SIAM J.
-    Optim. 7, 1997): polling several scales at once takes fewer iterations,
-    which is what costs here (each is one call into the field model), most of
-    all when the maximum lies on a constraint (a wall) that a single scale
-    can only approach by halving and moving in turn.
+    trials left on ``x`` are skipped).  A start moves to its best improvement
+    and keeps its step (doubles it when the longest step improved); without
+    improvement its step shrinks by ``SHRINK``, and each coordinate whose two
+    shortest polls both came out lower gets the vertex of the parabola
+    through the three values as a guess, tried with the next polls (a search
+    step, which moves the start but never keeps its step from shrinking).
+    It stops when every step is below ``STEP_TOL``.
+
+    This is a generalised pattern search (V. Torczon, "On the convergence of
+    pattern search algorithms", SIAM J. Optim. 7, 1997) with the parabolic
+    step of R. P. Brent, *Algorithms for Minimization without Derivatives*,
+    1973, ch. 5 (chapter from memory).  Polling several scales at once and
+    guessing take fewer iterations, which is what costs here (each is one
+    call into the field model), most of all when the maximum lies on a
+    constraint (a wall) that a single scale can only approach by halving
+    and moving in turn.
     """
     x = np.array(x0, dtype=np.float64)
     n, d = x.shape
     unit = np.concatenate([np.eye(d), -np.eye(d)])
     scale = np.repeat(POLL_SCALES, 2 * d)[:, None]
     dirs = np.tile(unit, (len(POLL_SCALES), 1)) * scale
+    near = slice(2 * d * (len(POLL_SCALES) - 1), 2 * d * len(POLL_SCALES))  # shortest polls
     f = evaluate(x, np.arange(n)) if n else np.empty(0)
     nan_seen = np.isnan(f)
     f = np.where(nan_seen, -np.inf, f)
     step = np.where(np.isfinite(f), 1.0, 0.0)
+    guess = x.copy()  # the parabolic estimate of each start's maximum (x: none)
     for _ in range(200):
         act = np.flatnonzero(step > STEP_TOL)
         if act.size == 0:
             break
         trial = x[act, None, :] + dirs[None] * (step[act, None, None] * base[act, None, :])
+        trial = np.concatenate([trial, guess[act, None, :]], axis=1)
         trial = np.clip(trial, lo[act, None, :], hi[act, None, :])
         if clip is not None:
             trial = clip(x[act], trial, act)
@@ -89,9 +101,30 @@ def _compass_search(evaluate, x0, base, lo, hi, clip=None):
         best = np.argmax(vals, axis=1)
         bv = vals[np.arange(act.size), best]
         up = bv > f[act]
+        # where no poll improved, each coordinate whose shortest polls both came out
+        # lower brackets a maximum: the parabola through the three points gives the
+        # next guess (tried with the next, shorter polls)
+        guess[act] = x[act]
+        stay = ~up
+        if stay.any():
+            t = trial[stay][:, near]
+            v = vals[stay][:, near]
+            f0, x1 = f[act[stay]], x[act[stay]]
+            for i in range(d):
+                a, b = x1[:, i] - t[:, d + i, i], t[:, i, i] - x1[:, i]  # >= 0
+                fa, fb = v[:, d + i], v[:, i]
+                with np.errstate(divide="ignore", invalid="ignore"):
+                    num = b * b * (f0 - fa) - a * a * (f0 - fb)
+                    den = a * (f0 - fb) + b * (f0 - fa)
+                    ok = (a > 0) & (b > 0) & np.isfinite(fa) & np.isfinite(fb) & (den > 0)
+                    shift = np.where(ok, 0.5 * num / den, 0.0)
+                g = guess[act[stay]]
+                g[:, i] += np.clip(shift, -a, b)
+                guess[act[stay]] = g
         x[act[up]] = trial[up, best[up]]
         f[act[up]] = bv[up]
-        step[act[~up]] *= SHRINK
+        step[act[up & (best < 2 * d)]] *= GROW  # the longest step improved: try longer
+        step[act[~up | (best == len(dirs))]] *= SHRINK  # no poll improved (a guess may have)
     return x, f, nan_seen
 
 
@@ -157,27 +190,35 @@ class _Walls:
         return self.s0[seg] + frac * length[seg] - self.s0[self.first[room]], room
 
 
-def _half_planes(geoms):
-    """Outward normals (r, m, 2) and offsets (r, m) of the edges of convex rooms,
-    so that a plan point p is inside room i when ``normal[i] @ p <= offset[i]``
-    for every edge; padded with zero normals, and all zero for a room that is
-    not convex (its trials are not clipped)."""
-    rings = []
-    for p in geoms:
-        hull = p.convex_hull
-        convex = p.area >= hull.area * (1 - 1e-9) and hull.geom_type == "Polygon"
-        rings.append(np.asarray(shapely.orient_polygons(hull).exterior.coords) if convex else None)
-    m = max((len(r) - 1 for r in rings if r is not None), default=0)
-    normal = np.zeros((len(geoms), max(m, 1), 2))
-    offset = np.zeros((len(geoms), max(m, 1)))
+def _edges(geoms):
+    """Edge starts (r, m, 2) and vectors (r, m, 2) of each room's outline,
+    padded with zero vectors."""
+    rings = [np.asarray(p.exterior.coords) for p in geoms]
+    m = max(len(r) - 1 for r in rings)
+    start = np.zeros((len(geoms), m, 2))
+    vec = np.zeros((len(geoms), m, 2))
     for i, ring in enumerate(rings):
-        if ring is None:
-            continue
-        e = np.diff(ring, axis=0)  # counter-clockwise: the outward normal is (e_y, -e_x)
-        nrm = np.column_stack([e[:, 1], -e[:, 0]])
-        normal[i, : len(e)] = nrm
-        offset[i, : len(e)] = np.einsum("ij,ij->i", nrm, ring[:-1])
-    return normal, offset
+        start[i, : len(ring) - 1] = ring[:-1]
+        vec[i, : len(ring) - 1] = np.diff(ring, axis=0)
+    return start, vec
+
+
+def _first_exit(x, d, start, vec):
+    """Fraction t in [0, 1] of each move ``x -> x + d`` before it first crosses an edge.
+
+    x (a, 2), d (a, k, 2), start and vec (a, m, 2) -> (a, k).  Crossings at the
+    move's own start (t ~ 0: x on the outline) do not count, so a move from a
+    wall into the room is free and one out of it is left for the caller to reject.
+    """
+    cross = lambda u, v: u[..., 0] * v[..., 1] - u[..., 1] * v[..., 0]  # noqa: E731
+    rel = (start - x[:, None, :])[:, None, :, :]  # (a, 1, m, 2)
+    dd, ee = d[:, :, None, :], vec[:, None, :, :]
+    den = cross(dd, ee)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        t = cross(rel, ee) / den
+        u = cross(rel, dd) / den
+    hit = (den != 0) & (t > 1e-12) & (t <= 1.0) & (u >= 0.0) & (u <= 1.0)
+    return np.where(hit, t, np.inf).min(axis=2, initial=1.0)
 
 
 def _face_starts(geoms, floor_field, nan_seen, node_best, node_at):
@@ -344,22 +385,19 @@ def room_maxima(scene, groups):
         xyz[wall, 2] = u[wall, 1]
         return xyz
 
-    normal, offset = _half_planes(geoms)
+    edge_start, edge_vec = _edges(geoms)
 
     def clip(x, trial, start):
-        # faces of convex rooms: a trial outside is moved back along its ray from x
-        # to the outline, where the maximum often lies (maximum principle)
+        # faces: a trial that leaves the outline is moved back along its ray from x
+        # to where it first crosses it (a wall, where the maximum often lies)
         face = start < nf
         if not face.any():
             return trial
         r = rooms[start[face]]
         xf, d = x[face], trial[face] - x[face, None, :]
-        a = np.einsum("rmc,rkc->rkm", normal[r], d)
-        b = (offset[r] - np.einsum("rmc,rc->rm", normal[r], xf))[:, None, :]
-        with np.errstate(divide="ignore", invalid="ignore"):
-            t = np.where(a > 0, np.maximum(b, 0.0) / a, np.inf).min(axis=2, initial=1.0)
+        t = _first_exit(xf, d, edge_start[r], edge_vec[r])
         trial = trial.copy()
-        trial[face] = xf[:, None, :] + t[:, :, None] * d
+        trial[face] = xf[:, None, :] + (t * (1 - 1e-9))[:, :, None] * d
         return trial
 
     def evaluate(u, start):
