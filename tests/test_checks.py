@@ -241,13 +241,17 @@ def test_check_site_on_a_floor_of_100_rooms():
     res = check_site(site, scene, progress=lambda s, i, n: steps.append((s, i, n)))
     assert steps == [("field", 1, 1), ("rooms", 1, 1), ("equipment", 1, 1)]
     ff = res.floor_fields["g"]
+    first = floor_grid(site, "g")  # the first pass, before the lines asked for a finer grid
+    assert ff.grid.spacing < first.spacing
     grid_points = ff.grid.heights.size * ff.bmax.size
+    grid_points += first.heights.size * first.x.size * first.y.size
     check_points = scene.points - grid_points
-    # measured: 28 227 grid points (97 x 97 x 3) against 3 701 for the 100 room checks
-    # and the equipment, in 10 scene calls in all; the same 3 701 at a 0.1 m spacing
-    # (390 963 grid points): the searches do not grow with the grid
-    assert check_points < 0.25 * grid_points
-    assert scene.calls <= 12
+    # measured: 28 227 + 60 492 grid points (97 x 97 x 3, then 142 x 142 x 3) against
+    # 10 485 for the 100 room checks and the equipment, in 12 scene calls in all (2 for
+    # the grids); 4 861 in 8 calls at a 0.1 m spacing (390 963 grid points, 3 calls): the
+    # searches do not grow with the grid
+    assert check_points < 0.15 * grid_points
+    assert scene.calls <= 13
     fails = [r for r in res.rooms if r.status == "fail"]
     assert res.failures == len(fails) + sum(not a.contained for a in res.access) + sum(
         e.status == "fail" for e in res.equipment
@@ -309,8 +313,9 @@ def test_rooms_of_all_floors_are_searched_together():
         alone_calls.append(scene.calls)
         assert alone.max_T == pytest.approx(r.max_T, rel=1e-12)
         np.testing.assert_allclose(alone.at_m, r.at_m, rtol=0, atol=1e-9)
-    # 3 floors x 3 heights for the grids, then as many calls as the longest search
-    assert together - 9 == max(alone_calls)
+    # one call per floor for the grids (its 3 heights at once), then as many calls as
+    # the longest search
+    assert together - 3 == max(alone_calls)
     assert {r.status for r in res.rooms} == {"pass", "fail"}
 
 
@@ -340,3 +345,27 @@ def test_room_max_dominates_random_samples(angle, w, d, src, moment):
     assert scene.magnitude(q).max() <= res.max_T * (1 + 1e-9)
     assert scene.magnitude(res.at_m)[0] == pytest.approx(res.max_T, rel=1e-12)
     assert poly.buffer(1e-9).contains(Point(res.at_m[:2])) and 0.5 <= res.at_m[2] <= 1.5
+
+
+def test_automatic_spacing_keeps_the_drawn_line_within_its_tolerance():
+    # a dipole 1 m above the floor, checked at that one height: its 0.5 mT line is the
+    # equatorial circle of radius R0 (Jackson, Classical Electrodynamics, 3rd ed., 1999,
+    # eq. 5.56).  Rooms 10 m wide give a first grid of 0.5 m, where the line is off by
+    # ~0.1 m; the floor is gridded again finer until the estimate is LINE_TOL
+    from siting.analysis.checks import map_floor
+    from siting.analysis.contours import LINE_TOL, level_lines
+
+    c = np.array([0.1, 0.05, 1.0])
+    scene = Scene([PointDipole(c, [0.0, 0.0, M], envelope=0.3)])
+    site = make_site([room("a", rect(-10, -10, 0, 10)), room("b", rect(0, -10, 10, 10))],
+                     heights=(1.0,))
+    first = floor_grid(site, "g")
+    assert first.spacing == 0.5
+    for spacing, tol in ((None, LINE_TOL), (0.5, None)):
+        ff = map_floor(site, scene, "g", spacing=spacing)
+        pts = np.concatenate(level_lines(ff, ACCESS))
+        miss = np.max(np.abs(np.hypot(pts[:, 0] - c[0], pts[:, 1] - c[1]) - R0))
+        if tol is None:  # a spacing given is honoured, however coarse
+            assert ff.grid.spacing == 0.5 and miss > 5 * LINE_TOL
+        else:  # measured: 0.152 m, line off by at most 8.8 mm (0.095 m at 0.5 m)
+            assert ff.grid.spacing < 0.3 and miss <= tol

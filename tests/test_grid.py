@@ -97,13 +97,13 @@ def test_user_spacing_and_floor_without_rooms():
         floor_grid(site, "u", spacing=-1.0)
 
 
-def test_band_max_matches_closed_form_one_call_per_height():
+def test_band_max_matches_closed_form():
     m = 2.0e3  # A m^2
     src = PointDipole([0.0, 0.0, 0.0], [0.0, 0.0, m])
     grid = PlanGrid("g", np.linspace(-3, 3, 13), np.linspace(-2, 2, 9), [0.5, 1.5, 1.0])
     sc = Counting(Scene([src]))
     ff = band_max(sc, grid)
-    assert sc.calls == 3 and sc.points == 3 * 13 * 9
+    assert sc.calls == 1 and sc.points == 3 * 13 * 9  # the three heights in one call
     assert ff.bmax.shape == (9, 13) and not ff.invalid.any()
     # independent evaluation of Jackson eq. 5.56 in spherical form:
     # |B| = mu0 m / (4 pi r^3) sqrt(1 + 3 cos^2 theta)
@@ -117,6 +117,19 @@ def test_band_max_matches_closed_form_one_call_per_height():
     np.testing.assert_allclose(ff.zmax, np.array([0.5, 1.0, 1.5])[vals.argmax(axis=0)])
     # on the axis above the dipole the lowest plane wins: B = mu0 2m / (4 pi z^3)
     assert ff.bmax[4, 6] == pytest.approx(mu_0 * 2 * m / (4 * np.pi * 0.5**3), rel=1e-12)
+
+
+def test_band_max_calls_per_height_on_a_large_grid():
+    from siting.analysis.grid import BAND_CALL_POINTS
+
+    src = PointDipole([0.0, 0.0, 0.0], [0.0, 0.0, 1e3])
+    x = np.linspace(-3, 3, 300)  # 90 000 plan nodes > BAND_CALL_POINTS
+    grid = PlanGrid("g", x, x, [0.5, 1.5, 1.0])
+    sc = Counting(Scene([src]))
+    ff = band_max(sc, grid)
+    assert 300 * 300 > BAND_CALL_POINTS and sc.calls == 3
+    small = band_max(Scene([src]), PlanGrid("g", x[::10], x[::10], [0.5, 1.5, 1.0]))
+    np.testing.assert_array_equal(ff.bmax[::10, ::10], small.bmax)  # same nodes, same values
 
 
 def test_band_max_invalid_mask():

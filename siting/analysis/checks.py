@@ -46,6 +46,7 @@ source, so that value depends on the grid spacing and only says "over".
 
 from __future__ import annotations
 
+import math
 from collections.abc import Callable
 from dataclasses import dataclass, field
 
@@ -53,7 +54,7 @@ import numpy as np
 import shapely
 from shapely.geometry import MultiPolygon, Polygon
 
-from siting.analysis.contours import clearance, level_region
+from siting.analysis.contours import LINE_TOL, clearance, level_region, line_error
 from siting.analysis.grid import FloorField, band_max, floor_grid
 from siting.analysis.roommax import room_maxima
 from siting.errors import SitingError
@@ -246,6 +247,36 @@ def access_boundary(site: Site, floor_field: FloorField, *, region=None) -> Acce
     )
 
 
+def line_levels(site: Site, floor_id: str) -> tuple[float, ...]:
+    """The levels whose lines matter on a floor [T]: the site's drawn levels, the
+    access limit and the limits of the floor's rooms, ascending."""
+    limits = (site.room_limit(r) for r in site.rooms if r.floor == floor_id)
+    levels = {*site.info.levels, site.info.access_limit, *(v for v in limits if v is not None)}
+    return tuple(sorted(float(v) for v in levels))
+
+
+def map_floor(site: Site, scene, floor_id: str, *, spacing: float | None = None) -> FloorField:
+    """The band maximum on a floor's grid.
+
+    With ``spacing`` given, on :func:`floor_grid` at that spacing.  Without,
+    :func:`floor_grid`'s automatic spacing is a first pass: when
+    :func:`siting.analysis.contours.line_error` says a line of
+    :func:`line_levels` is off by more than ``LINE_TOL`` there, the floor is
+    gridded again at ``h sqrt(LINE_TOL / error)`` (the error falls as h^2),
+    within the grid's bounds and point cap, and the finer map is returned.
+    """
+    grid = floor_grid(site, floor_id, spacing=spacing)
+    ff = band_max(scene, grid)
+    if spacing is not None:
+        return ff
+    err = line_error(ff, line_levels(site, floor_id))
+    if err > LINE_TOL:
+        finer = floor_grid(site, floor_id, at_most=grid.spacing * math.sqrt(LINE_TOL / err))
+        if finer.spacing < grid.spacing:
+            ff = band_max(scene, finer)
+    return ff
+
+
 def check_site(
     site: Site,
     scene,
@@ -262,7 +293,8 @@ def check_site(
     scene : object with ``magnitude(points (n, 3) [m]) -> (n,) [T]``
         The site's field model (e.g. ``siting.site.build.build_scene(site)``).
     spacing : float, optional
-        Grid spacing [m] for every floor (default: :func:`floor_grid`'s rule).
+        Grid spacing [m] for every floor (default: chosen per floor by
+        :func:`map_floor` from the rooms and the accuracy of the lines).
     progress : callable(step, i, n), optional
         Called after each step: ``("field", i, n)`` and ``("rooms", i, n)``
         per floor (i = 1..n floors), then ``("equipment", 1, 1)``.
@@ -280,10 +312,9 @@ def check_site(
     n = len(site.floors)
     for i, fl in enumerate(site.floors, start=1):
         try:
-            grid = floor_grid(site, fl.id, spacing=spacing)
+            ff = map_floor(site, scene, fl.id, spacing=spacing)
         except SitingError:
             continue
-        ff = band_max(scene, grid)
         fields[fl.id] = ff
         report("field", i, n)
         regions = {access_limit: level_region(ff, access_limit)}

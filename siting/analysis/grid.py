@@ -2,8 +2,9 @@
 
 A floor's field map is the maximum of |B| over the heights at which people are
 checked (``site.info.check_heights`` above the floor's finished level), taken
-node by node on a regular plan grid.  Every node at every height is evaluated
-in one ``scene.magnitude`` call; the scene does its own bounded-memory chunking.
+node by node on a regular plan grid.  The nodes are evaluated as many heights
+per ``scene.magnitude`` call as fit in ``BAND_CALL_POINTS`` points (one height
+per call on a larger grid); the scene does its own bounded-memory chunking.
 
 Grid extent and spacing (the defaults of :func:`floor_grid`):
 
@@ -12,10 +13,16 @@ Grid extent and spacing (the defaults of :func:`floor_grid`):
   with no rooms uses the plan positions of the site's field sources on that
   floor (all floors if it has none of its own) together with its equipment.
 * spacing: the smallest room width / 8 (width = short side of the room's
-  minimum rotated rectangle), clipped to [0.05, 0.5] m (0.25 m on a floor
-  without rooms), then widened if needed so that the grid holds at most
-  ``max_points`` (400 000) plan nodes.  A spacing given by the caller is
-  honoured exactly and not capped.
+  minimum rotated rectangle), or ``at_most`` if smaller, clipped to
+  [0.05, 0.5] m (0.25 m on a floor without rooms), then widened if needed so
+  that the grid holds at most ``max_points`` (400 000) plan nodes.  A spacing
+  given by the caller is honoured exactly and not capped.
+
+The contour levels enter through ``at_most``:
+:func:`siting.analysis.checks.map_floor` grids a floor at this spacing
+first and, when the isogauss lines there are estimated to be off by more
+than ``siting.analysis.contours.LINE_TOL``, again at the spacing that
+brings them within it.
 """
 
 from __future__ import annotations
@@ -31,6 +38,8 @@ from siting.site.model import Site
 
 #: Default cap on plan nodes per floor (the grid's nx * ny).
 MAX_PLAN_POINTS = 400_000
+#: Points per field call in :func:`band_max` (heights are grouped up to this).
+BAND_CALL_POINTS = 2**16
 #: Bounds of the automatic spacing [m].
 MIN_SPACING, MAX_SPACING = 0.05, 0.5
 #: Automatic spacing on a floor that has no rooms [m].
@@ -200,14 +209,18 @@ def _source_plan_points(site: Site, floor_id: str | None) -> list[np.ndarray]:
     return out
 
 
-def _room_width(outline) -> float:
-    """Short side of the minimum rotated rectangle of a room outline [m]."""
-    rect = shapely.minimum_rotated_rectangle(shapely.Polygon(outline))
-    xy = np.asarray(rect.exterior.coords)[:4] if rect.geom_type == "Polygon" else None
-    if xy is None or len(xy) < 4:
-        return 0.0
-    sides = np.hypot(*(np.roll(xy, -1, axis=0) - xy).T)
-    return float(sides.min())
+def _room_widths(outlines) -> np.ndarray:
+    """Short sides of the minimum rotated rectangles of room outlines [m] (0 if degenerate)."""
+    if not outlines:
+        return np.empty(0)
+    polys = np.array([shapely.Polygon(o) for o in outlines], dtype=object)
+    rect = shapely.minimum_rotated_rectangle(polys)
+    out = np.zeros(len(outlines))
+    poly = shapely.get_type_id(rect) == 3  # a degenerate outline gives a line or a point
+    if poly.any():
+        xy = shapely.get_coordinates(shapely.get_exterior_ring(rect[poly])).reshape(-1, 5, 2)
+        out[poly] = np.hypot(*np.moveaxis(np.diff(xy, axis=1), 2, 0)).min(axis=1)
+    return out
 
 
 def _nodes(lo: float, hi: float, spacing: float) -> np.ndarray:
@@ -224,6 +237,7 @@ def floor_grid(
     spacing: float | None = None,
     margin: float | None = None,
     max_points: int = MAX_PLAN_POINTS,
+    at_most: float | None = None,
 ) -> PlanGrid:
     """The plan grid for one floor (extent and spacing rules: module docstring).
 
@@ -240,6 +254,10 @@ def floor_grid(
         ``max(2 m, 10 % of the larger side)``.
     max_points : int
         Cap on nx * ny for the automatic spacing.
+    at_most : float, optional
+        A further upper bound on the automatic spacing [m] (e.g. from the
+        accuracy of the isogauss lines); still clipped to [0.05, 0.5] m and
+        subject to ``max_points``.
 
     Returns
     -------
@@ -261,8 +279,11 @@ def floor_grid(
         raise ValueError(f"margin must be finite and >= 0; got {margin!r}")
     x0, y0, x1, y1 = x0 - margin, y0 - margin, x1 + margin, y1 + margin
     if spacing is None:
-        widths = [w for w in (_room_width(o) for o in rooms) if w > 0]
-        h = min(widths) / NODES_PER_ROOM_WIDTH if widths else NO_ROOM_SPACING
+        widths = _room_widths(rooms)
+        widths = widths[widths > 0]
+        h = widths.min() / NODES_PER_ROOM_WIDTH if widths.size else NO_ROOM_SPACING
+        if at_most is not None:
+            h = min(h, float(at_most))
         h = float(np.clip(h, MIN_SPACING, MAX_SPACING))
         # widen until the grid fits (the +1 node per axis makes a closed form inexact)
         while (math.ceil((x1 - x0) / h) + 1) * (math.ceil((y1 - y0) / h) + 1) > max_points:
@@ -281,7 +302,8 @@ def band_max(scene, grid: PlanGrid) -> FloorField:
     Parameters
     ----------
     scene : object with ``magnitude(points (n, 3) [m]) -> (n,) [T]``
-        Called once per check height with all ``ny * nx`` plan nodes.
+        Called with all ``ny * nx`` plan nodes at as many heights at once as
+        fit in ``BAND_CALL_POINTS`` points (at least one height per call).
     grid : PlanGrid
         Plan nodes and check heights.
 
@@ -290,20 +312,25 @@ def band_max(scene, grid: PlanGrid) -> FloorField:
     FloorField
     """
     ny, nx = grid.shape
-    pts = np.empty((ny * nx, 3))
-    pts[:, :2] = grid.plan_points()
-    bmax = np.full(ny * nx, -np.inf)
-    zmax = np.full(ny * nx, np.nan)
-    invalid = np.zeros(ny * nx, dtype=bool)
-    valid_any = np.zeros(ny * nx, dtype=bool)
-    for z in grid.heights:
-        pts[:, 2] = z
-        mag = np.asarray(scene.magnitude(pts), dtype=np.float64)
-        nan = np.isnan(mag)
-        invalid |= nan
-        valid_any |= ~nan
-        higher = mag > bmax  # False where mag is NaN
-        bmax[higher] = mag[higher]
-        zmax[higher] = z
+    n = ny * nx
+    per_call = max(1, BAND_CALL_POINTS // n)
+    plan = grid.plan_points()
+    bmax = np.full(n, -np.inf)
+    zmax = np.full(n, np.nan)
+    invalid = np.zeros(n, dtype=bool)
+    valid_any = np.zeros(n, dtype=bool)
+    for k0 in range(0, grid.heights.size, per_call):
+        zs = grid.heights[k0 : k0 + per_call]
+        pts = np.empty((zs.size, n, 3))
+        pts[:, :, :2] = plan
+        pts[:, :, 2] = zs[:, None]
+        mags = np.asarray(scene.magnitude(pts.reshape(-1, 3)), dtype=np.float64)
+        for z, mag in zip(zs, mags.reshape(zs.size, n), strict=True):
+            nan = np.isnan(mag)
+            invalid |= nan
+            valid_any |= ~nan
+            higher = mag > bmax  # False where mag is NaN
+            bmax[higher] = mag[higher]
+            zmax[higher] = z
     bmax[~valid_any] = np.nan
     return FloorField(grid, bmax.reshape(ny, nx), invalid.reshape(ny, nx), zmax.reshape(ny, nx))
