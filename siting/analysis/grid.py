@@ -30,6 +30,7 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass
 
+import numba
 import numpy as np
 import shapely
 
@@ -296,6 +297,32 @@ def floor_grid(
     return PlanGrid(floor_id, _nodes(x0, x1, h), _nodes(y0, y1, h), heights)
 
 
+@numba.njit(cache=True)
+def _fill_points(x, y, zs, out):
+    """Plan nodes (y outer, x inner) at each height of ``zs`` in turn, into out (k n, 3)."""
+    m = 0
+    for z in zs:
+        for yj in y:
+            for xi in x:
+                out[m, 0], out[m, 1], out[m, 2] = xi, yj, z
+                m += 1
+
+
+@numba.njit(cache=True)
+def _fold_heights(mags, zs, bmax, zmax, invalid, valid_any):
+    """Fold |B| at heights ``zs`` (k, n) into the running maximum (the lowest
+    height wins a tie) and the masks of undefined and of valid nodes."""
+    for k in range(zs.size):
+        for i in range(mags.shape[1]):
+            v = mags[k, i]
+            if math.isnan(v):
+                invalid[i] = True
+            else:
+                valid_any[i] = True
+                if v > bmax[i]:
+                    bmax[i], zmax[i] = v, zs[k]
+
+
 def band_max(scene, grid: PlanGrid) -> FloorField:
     """Max of |B| over the grid's check heights, node by node.
 
@@ -314,23 +341,15 @@ def band_max(scene, grid: PlanGrid) -> FloorField:
     ny, nx = grid.shape
     n = ny * nx
     per_call = max(1, BAND_CALL_POINTS // n)
-    plan = grid.plan_points()
     bmax = np.full(n, -np.inf)
     zmax = np.full(n, np.nan)
     invalid = np.zeros(n, dtype=bool)
     valid_any = np.zeros(n, dtype=bool)
     for k0 in range(0, grid.heights.size, per_call):
         zs = grid.heights[k0 : k0 + per_call]
-        pts = np.empty((zs.size, n, 3))
-        pts[:, :, :2] = plan
-        pts[:, :, 2] = zs[:, None]
-        mags = np.asarray(scene.magnitude(pts.reshape(-1, 3)), dtype=np.float64)
-        for z, mag in zip(zs, mags.reshape(zs.size, n), strict=True):
-            nan = np.isnan(mag)
-            invalid |= nan
-            valid_any |= ~nan
-            higher = mag > bmax  # False where mag is NaN
-            bmax[higher] = mag[higher]
-            zmax[higher] = z
+        pts = np.empty((zs.size * n, 3))
+        _fill_points(grid.x, grid.y, zs, pts)
+        mags = np.asarray(scene.magnitude(pts), dtype=np.float64)
+        _fold_heights(mags.reshape(zs.size, n), zs, bmax, zmax, invalid, valid_any)
     bmax[~valid_any] = np.nan
     return FloorField(grid, bmax.reshape(ny, nx), invalid.reshape(ny, nx), zmax.reshape(ny, nx))
