@@ -169,3 +169,18 @@ def test_interpolate_is_exact_for_a_bilinear_field():
     np.testing.assert_allclose(z, [0.5, 1.5, 0.5, 1.5])
     assert not bad.any()
     assert ff.interpolate([[0.1, -0.9]])[2][0]  # the cell of the invalid node
+
+
+def test_refined_keeps_extent_and_heights_and_honours_the_bounds():
+    from siting.analysis.grid import MIN_SPACING, refined
+
+    grid = PlanGrid("g", np.linspace(-3, 5, 17), np.linspace(0, 4, 9), [0.5, 1.5])  # 0.5 m
+    fine = refined(grid, 0.2)
+    assert fine.spacing == pytest.approx(0.2)
+    assert fine.x[0] <= grid.x[0] + 1e-12 and fine.x[-1] >= grid.x[-1] - 1e-12
+    assert fine.y[0] <= grid.y[0] + 1e-12 and fine.y[-1] >= grid.y[-1] - 1e-12
+    np.testing.assert_array_equal(fine.heights, grid.heights)
+    assert refined(grid, 0.001).spacing == pytest.approx(MIN_SPACING)
+    capped = refined(grid, 0.05, max_points=2000)
+    assert capped.x.size * capped.y.size <= 2000 and capped.spacing < grid.spacing
+    assert refined(grid, 0.7) is grid and refined(grid, 0.5) is grid

@@ -55,7 +55,7 @@ import shapely
 from shapely.geometry import MultiPolygon, Polygon
 
 from siting.analysis.contours import LINE_TOL, clearance, level_region, line_error
-from siting.analysis.grid import FloorField, band_max, floor_grid
+from siting.analysis.grid import FloorField, band_max, floor_grid, refined
 from siting.analysis.roommax import room_maxima
 from siting.errors import SitingError
 from siting.site.model import Equipment, Room, Site
@@ -262,8 +262,8 @@ def map_floor(site: Site, scene, floor_id: str, *, spacing: float | None = None)
     :func:`floor_grid`'s automatic spacing is a first pass: when
     :func:`siting.analysis.contours.line_error` says a line of
     :func:`line_levels` is off by more than ``LINE_TOL`` there, the floor is
-    gridded again at ``h sqrt(LINE_TOL / error)`` (the error falls as h^2),
-    within the grid's bounds and point cap, and the finer map is returned.
+    gridded again at ``h sqrt(LINE_TOL / error)`` (the error falls as h^2) by
+    :func:`siting.analysis.grid.refined`, and the finer map is returned.
     """
     grid = floor_grid(site, floor_id, spacing=spacing)
     ff = band_max(scene, grid)
@@ -271,8 +271,8 @@ def map_floor(site: Site, scene, floor_id: str, *, spacing: float | None = None)
         return ff
     err = line_error(ff, line_levels(site, floor_id))
     if err > LINE_TOL:
-        finer = floor_grid(site, floor_id, at_most=grid.spacing * math.sqrt(LINE_TOL / err))
-        if finer.spacing < grid.spacing:
+        finer = refined(grid, grid.spacing * math.sqrt(LINE_TOL / err))
+        if finer is not grid:
             ff = band_max(scene, finer)
     return ff
 

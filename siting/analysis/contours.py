@@ -22,8 +22,10 @@ Conventions:
 from __future__ import annotations
 
 import math
+import weakref
 
 import contourpy
+import numba
 import numpy as np
 import shapely
 from contourpy import FillType, LineType
@@ -52,16 +54,25 @@ def contour_values(floor_field: FloorField) -> np.ndarray:
     return z
 
 
+#: One contour generator per field map, reused for all its levels (contourpy's
+#: set-up costs more than a level's contouring on a floor-sized grid).
+_GENERATORS: weakref.WeakKeyDictionary = weakref.WeakKeyDictionary()
+
+
 def _generator(floor_field: FloorField):
-    g = floor_field.grid
-    return contourpy.contour_generator(
-        g.x,
-        g.y,
-        contour_values(floor_field),
-        name="serial",
-        fill_type=FillType.OuterOffset,
-        line_type=LineType.Separate,
-    )
+    gen = _GENERATORS.get(floor_field)
+    if gen is None:
+        g = floor_field.grid
+        gen = contourpy.contour_generator(
+            g.x,
+            g.y,
+            contour_values(floor_field),
+            name="serial",
+            fill_type=FillType.OuterOffset,
+            line_type=LineType.Separate,
+        )
+        _GENERATORS[floor_field] = gen
+    return gen
 
 
 def _as_multipolygon(geom) -> MultiPolygon:
@@ -218,26 +229,47 @@ def line_error(floor_field: FloorField, levels) -> float:
     """
     g = floor_field.grid
     f = np.where(floor_field.invalid, np.nan, floor_field.bmax)
+    if f.shape[0] < 3 or f.shape[1] < 3:
+        return 0.0
+    lev = np.array(sorted(_check_level(v) for v in levels), dtype=np.float64)
+    return float(_line_error(f, float(np.diff(g.x).mean()), float(np.diff(g.y).mean()), lev))
+
+
+@numba.njit(cache=True)
+def _node_error(f, hx, hy, j, i):
+    """h^2 max(|f_xx|, |f_yy|) / (8 |grad f|) at node (j, i) by central differences
+    (NaN at the border or next to an invalid node)."""
     ny, nx = f.shape
-    if nx < 3 or ny < 3:
-        return 0.0
-    hx, hy = np.diff(g.x).mean(), np.diff(g.y).mean()
-    fxx = np.full_like(f, np.nan)
-    fyy = np.full_like(f, np.nan)
-    fx = np.full_like(f, np.nan)
-    fy = np.full_like(f, np.nan)
-    fxx[:, 1:-1] = (f[:, 2:] - 2 * f[:, 1:-1] + f[:, :-2]) / hx**2
-    fyy[1:-1] = (f[2:] - 2 * f[1:-1] + f[:-2]) / hy**2
-    fx[:, 1:-1] = (f[:, 2:] - f[:, :-2]) / (2 * hx)
-    fy[1:-1] = (f[2:] - f[:-2]) / (2 * hy)
-    with np.errstate(invalid="ignore", divide="ignore"):
-        node = np.maximum(hx**2 * np.abs(fxx), hy**2 * np.abs(fyy)) / (8 * np.hypot(fx, fy))
-    corners = np.stack([f[:-1, :-1], f[:-1, 1:], f[1:, :-1], f[1:, 1:]])
-    lo, hi = corners.min(axis=0), corners.max(axis=0)  # NaN where a corner is invalid
-    crossed = np.zeros(lo.shape, dtype=bool)
-    for level in levels:
-        crossed |= (lo < _check_level(level)) & (hi >= level)
-    if not crossed.any():
-        return 0.0
-    err = np.stack([node[:-1, :-1], node[:-1, 1:], node[1:, :-1], node[1:, 1:]])[:, crossed]
-    return float(np.max(np.where(np.isfinite(err), err, 0.0)))
+    if j < 1 or i < 1 or j > ny - 2 or i > nx - 2:
+        return np.nan
+    c = f[j, i]
+    fxx = f[j, i + 1] - 2 * c + f[j, i - 1]  # times 1 / hx^2; h^2 f_xx is this
+    fyy = f[j + 1, i] - 2 * c + f[j - 1, i]
+    fx = (f[j, i + 1] - f[j, i - 1]) / (2 * hx)
+    fy = (f[j + 1, i] - f[j - 1, i]) / (2 * hy)
+    grad = math.hypot(fx, fy)
+    return max(abs(fxx), abs(fyy)) / (8 * grad)  # NaN propagates; inf where grad = 0
+
+
+@numba.njit(cache=True)
+def _line_error(f, hx, hy, levels):
+    ny, nx = f.shape
+    worst = 0.0
+    for j in range(ny - 1):
+        for i in range(nx - 1):
+            a, b, c, d = f[j, i], f[j, i + 1], f[j + 1, i], f[j + 1, i + 1]
+            lo, hi = min(a, b, c, d), max(a, b, c, d)
+            if math.isnan(a + b + c + d):
+                continue
+            crossed = False
+            for lv in levels:
+                if lo < lv <= hi:
+                    crossed = True
+                    break
+            if not crossed:
+                continue
+            for jj, ii in ((j, i), (j, i + 1), (j + 1, i), (j + 1, i + 1)):
+                e = _node_error(f, hx, hy, jj, ii)
+                if e > worst and math.isfinite(e):
+                    worst = e
+    return worst

@@ -13,16 +13,16 @@ Grid extent and spacing (the defaults of :func:`floor_grid`):
   with no rooms uses the plan positions of the site's field sources on that
   floor (all floors if it has none of its own) together with its equipment.
 * spacing: the smallest room width / 8 (width = short side of the room's
-  minimum rotated rectangle), or ``at_most`` if smaller, clipped to
-  [0.05, 0.5] m (0.25 m on a floor without rooms), then widened if needed so
-  that the grid holds at most ``max_points`` (400 000) plan nodes.  A spacing
-  given by the caller is honoured exactly and not capped.
+  minimum rotated rectangle), clipped to [0.05, 0.5] m (0.25 m on a floor
+  without rooms), then widened if needed so that the grid holds at most
+  ``max_points`` (400 000) plan nodes.  A spacing given by the caller is
+  honoured exactly and not capped.
 
-The contour levels enter through ``at_most``:
+The contour levels enter through :func:`refined`:
 :func:`siting.analysis.checks.map_floor` grids a floor at this spacing
 first and, when the isogauss lines there are estimated to be off by more
-than ``siting.analysis.contours.LINE_TOL``, again at the spacing that
-brings them within it.
+than ``siting.analysis.contours.LINE_TOL``, again over the same extent at
+the spacing that brings them within it (at least 0.05 m, within the cap).
 """
 
 from __future__ import annotations
@@ -224,6 +224,40 @@ def _room_widths(outlines) -> np.ndarray:
     return out
 
 
+def _fit(h: float, width: float, depth: float, max_points: int) -> float:
+    """``h`` widened until a ``width`` x ``depth`` grid holds at most ``max_points``
+    nodes (the +1 node per axis makes a closed form inexact)."""
+    while (math.ceil(width / h) + 1) * (math.ceil(depth / h) + 1) > max_points:
+        h = max(h * 1.01, math.sqrt(width * depth / max_points))
+    return h
+
+
+def refined(grid: PlanGrid, spacing: float, *, max_points: int = MAX_PLAN_POINTS) -> PlanGrid:
+    """The same floor, extent and heights at a finer spacing.
+
+    Parameters
+    ----------
+    grid : PlanGrid
+        The grid to refine.
+    spacing : float
+        Wanted spacing [m]; raised to ``MIN_SPACING`` and widened, if needed,
+        until the grid holds at most ``max_points`` plan nodes.
+    max_points : int
+        Cap on nx * ny.
+
+    Returns
+    -------
+    PlanGrid
+        Nodes centred on ``grid.bounds``; ``grid`` itself when that spacing is
+        not finer than its own.
+    """
+    x0, y0, x1, y1 = grid.bounds
+    h = _fit(max(float(spacing), MIN_SPACING), x1 - x0, y1 - y0, max_points)
+    if h >= grid.spacing:
+        return grid
+    return PlanGrid(grid.floor, _nodes(x0, x1, h), _nodes(y0, y1, h), grid.heights)
+
+
 def _nodes(lo: float, hi: float, spacing: float) -> np.ndarray:
     """Nodes at ``spacing`` covering [lo, hi], centred on it (at least 2)."""
     n = max(int(math.ceil((hi - lo) / spacing - 1e-9)) + 1, 2)
@@ -238,7 +272,6 @@ def floor_grid(
     spacing: float | None = None,
     margin: float | None = None,
     max_points: int = MAX_PLAN_POINTS,
-    at_most: float | None = None,
 ) -> PlanGrid:
     """The plan grid for one floor (extent and spacing rules: module docstring).
 
@@ -255,10 +288,6 @@ def floor_grid(
         ``max(2 m, 10 % of the larger side)``.
     max_points : int
         Cap on nx * ny for the automatic spacing.
-    at_most : float, optional
-        A further upper bound on the automatic spacing [m] (e.g. from the
-        accuracy of the isogauss lines); still clipped to [0.05, 0.5] m and
-        subject to ``max_points``.
 
     Returns
     -------
@@ -283,12 +312,7 @@ def floor_grid(
         widths = _room_widths(rooms)
         widths = widths[widths > 0]
         h = widths.min() / NODES_PER_ROOM_WIDTH if widths.size else NO_ROOM_SPACING
-        if at_most is not None:
-            h = min(h, float(at_most))
-        h = float(np.clip(h, MIN_SPACING, MAX_SPACING))
-        # widen until the grid fits (the +1 node per axis makes a closed form inexact)
-        while (math.ceil((x1 - x0) / h) + 1) * (math.ceil((y1 - y0) / h) + 1) > max_points:
-            h = max(h * 1.01, math.sqrt((x1 - x0) * (y1 - y0) / max_points))
+        h = _fit(float(np.clip(h, MIN_SPACING, MAX_SPACING)), x1 - x0, y1 - y0, max_points)
     else:
         h = float(spacing)
         if not np.isfinite(h) or h <= 0:
