@@ -141,10 +141,14 @@ def _room_result(site, room, poly, mx, at, nan_seen, floor_field, region):
 
 
 def _outlines(rooms):
-    polys = [shapely.make_valid(Polygon(r.outline)) for r in rooms]
+    polys = np.array([Polygon(r.outline) for r in rooms], dtype=object)
+    bad = ~shapely.is_valid(polys) if len(polys) else np.zeros(0, dtype=bool)
     # a self-intersecting outline is checked over its convex hull, which contains
     # it: the maximum found is then an upper bound (on the safe side)
-    return [p if isinstance(p, Polygon) else p.convex_hull for p in polys]
+    for i in np.flatnonzero(bad):
+        p = shapely.make_valid(polys[i])
+        polys[i] = p if isinstance(p, Polygon) else p.convex_hull
+    return list(polys)
 
 
 def _check_rooms(site, scene, floors):

@@ -32,6 +32,7 @@ from dataclasses import dataclass
 
 import numba
 import numpy as np
+import shapely
 
 #: A start stops when its step falls below this, in units of its base step.
 STEP_TOL = 1e-2
@@ -64,21 +65,15 @@ class Outlines:
     @classmethod
     def of(cls, polys):
         """From shapely Polygons (their exteriors; zero-length segments dropped)."""
-        starts, vecs, first, last = [], [], [], []
-        n = 0
-        for p in polys:
-            ring = np.asarray(p.exterior.coords)
-            v = np.diff(ring, axis=0)
-            keep = np.hypot(*v.T) > 0
-            starts.append(ring[:-1][keep])
-            vecs.append(v[keep])
-            first.append(n)
-            n += int(keep.sum())
-            last.append(n - 1)
-        start, vec = np.concatenate(starts), np.concatenate(vecs)
+        polys = np.asarray(polys, dtype=object)
+        ring, room = shapely.get_coordinates(shapely.get_exterior_ring(polys), return_index=True)
+        v = ring[1:] - ring[:-1]
+        keep = (room[1:] == room[:-1]) & (np.hypot(v[:, 0], v[:, 1]) > 0)
+        start, vec, seg_room = ring[:-1][keep], v[keep], room[:-1][keep]
+        first = np.searchsorted(seg_room, np.arange(len(polys)), side="left").astype(np.int64)
+        last = np.searchsorted(seg_room, np.arange(len(polys)), side="right").astype(np.int64) - 1
         length = np.hypot(*vec.T)
         s0 = np.concatenate([[0.0], np.cumsum(length)[:-1]])
-        first, last = np.array(first, dtype=np.int64), np.array(last, dtype=np.int64)
         perim = s0[last] + length[last] - s0[first]
         return cls(start, vec, s0, first, last, perim)
 
