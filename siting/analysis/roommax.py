@@ -17,7 +17,7 @@ import numba
 import numpy as np
 import shapely
 
-from siting.analysis.roomsearch import Outlines, _inside, search
+from siting.analysis.roomsearch import Outlines, search
 
 #: Starts of the local search per room on the band faces and on the walls.
 N_FACE_STARTS, N_WALL_STARTS = 2, 2
@@ -42,9 +42,23 @@ def _room_peaks(outl, rooms, box, x, y, bmax, invalid, n_top, top_val, top_i, to
     for q in range(rooms.size):
         ix0, ix1, iy0, iy1 = box[q, 0], box[q, 1], box[q, 2], box[q, 3]
         loc = np.full((iy1 - iy0 + 2, ix1 - ix0 + 2), -np.inf)
+        start, vec, first, last = outl[0], outl[1], outl[3][rooms[q]], outl[4][rooms[q]]
+        xc = np.empty(last - first + 1)
         for j in range(iy0, iy1):
+            # the even-odd rule along the row: a node is inside when an odd number of
+            # the outline's crossings of the row lie to its right (as in _inside)
+            m = 0
+            for e in range(first, last + 1):
+                ay, by = start[e, 1], start[e, 1] + vec[e, 1]
+                if (ay > y[j]) != (by > y[j]):
+                    xc[m] = start[e, 0] + (y[j] - ay) * vec[e, 0] / vec[e, 1]
+                    m += 1
+            row = np.sort(xc[:m])
+            right = 0  # crossings at or left of the node
             for i in range(ix0, ix1):
-                if _inside(outl[0], outl[1], outl[3], outl[4], rooms[q], x[i], y[j]):
+                while right < m and row[right] <= x[i]:
+                    right += 1
+                if (m - right) % 2 == 1:
                     if invalid[j, i]:
                         nan_seen[q] = True
                     if not math.isnan(bmax[j, i]):
@@ -52,7 +66,14 @@ def _room_peaks(outl, rooms, box, x, y, bmax, invalid, n_top, top_val, top_i, to
         for j in range(1, loc.shape[0] - 1):
             for i in range(1, loc.shape[1] - 1):
                 v = loc[j, i]
-                if v == -np.inf or v < loc[j - 1 : j + 2, i - 1 : i + 2].max():
+                if v == -np.inf or v <= top_val[q, n_top - 1]:
+                    continue  # not above the smallest kept value: cannot enter the list
+                peak = True
+                for dj in range(-1, 2):
+                    for di in range(-1, 2):
+                        if loc[j + dj, i + di] > v:
+                            peak = False
+                if not peak:
                     continue
                 k = n_top
                 while k > 0 and v > top_val[q, k - 1]:
