@@ -108,6 +108,8 @@ def level_region(floor_field: FloorField, level: float) -> MultiPolygon:
         border where the region reaches it (module docstring).
     """
     lev = _check_level(level)
+    if not np.any(floor_field.invalid) and not np.nanmax(floor_field.bmax, initial=0.0) >= lev:
+        return MultiPolygon()  # nothing reaches the level: no contouring needed
     points, offsets = _generator(floor_field).filled(lev, np.inf)
     polys = []
     for pts, off in zip(points, offsets, strict=True):
