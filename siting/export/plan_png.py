@@ -16,9 +16,15 @@ import numpy as np  # noqa: E402
 from matplotlib.patches import Polygon as MplPolygon  # noqa: E402
 
 from siting.cautions import CAUTION_TEXT  # noqa: E402
+from siting.export.labels import room_max_text  # noqa: E402
 from siting.export.palette import FAIL, LINE, PASS, ROOM_EDGE, band_colours  # noqa: E402
 from siting.site.units import format_field  # noqa: E402
 
+
+def room_label(site, room, res, units: str) -> str:
+    """A room's text on the quick map: name, zone, maximum (as on the sheets), FAIL."""
+    label = f"{room.name}\nzone {room.zone}\nmax {room_max_text(site, res, units)}"
+    return label + "\nFAIL" if res.status == "fail" else label
 
 def _floor_figure(site, result, floor_id):
     ff = result.floor_fields[floor_id]
@@ -40,9 +46,7 @@ def _floor_figure(site, result, floor_id):
         ax.add_patch(MplPolygon(room.outline, closed=True, fill=False, edgecolor=edge,
                                 linewidth=2.0 if res.status == "fail" else 1.2))
         cx, cy = room.outline.mean(axis=0)
-        label = f"{room.name}\nzone {room.zone}\nmax {format_field(res.max_T, fu)}"
-        if res.status == "fail":
-            label += "\nFAIL"
+        label = room_label(site, room, res, fu)
         ax.text(cx, cy, label, ha="center", va="center", fontsize=7, color=edge,
                 bbox={"facecolor": "white", "alpha": 0.75, "edgecolor": "none", "pad": 1.5})
     for mag in site.magnets:
