@@ -10,18 +10,19 @@ section number from memory).  The boundary is the two band faces and the
 walls, so the search covers
 
 * the faces: starts at the local maxima of the band maximum among the grid
-  nodes inside the room, put on the nearer band face, refined by a compass
-  search in (x, y) that rejects points outside the outline;
+  nodes inside the room, put on the nearer band face, refined by a pattern
+  search in (x, y) whose trials that leave the outline stop where they first
+  cross it;
 * the walls: samples along the outline at the grid spacing, valued by
   interpolating the band maximum (the model itself next to undefined nodes),
-  refined from the best local maxima by a compass search in (arc length
+  refined from the best local maxima by a pattern search in (arc length
   along the outline, z), z bounded to the band.
 
-The compass (pattern) search is a derivative-free local optimiser run for all
-starts of all rooms of a floor at once, so each iteration is one vectorised
-``scene.magnitude`` call; it stops when its step falls below 1e-2 grid
-spacings, so the reported maximum (always a value the model gave at a point
-of the prism) does not depend on the grid spacing.
+The pattern search (:mod:`siting.analysis.roomsearch`) is a derivative-free
+local optimiser run for all starts of all rooms of every floor at once, so
+each iteration is one vectorised ``scene.magnitude`` call; it stops when its
+step falls below 1e-2 grid spacings, so the reported maximum (always a value
+the model gave at a point of the prism) does not depend on the grid spacing.
 
 Undefined model (NaN: inside a magnet's envelope or on a conductor).  The
 maximum is taken over the valid points only; a room in which any sampled

@@ -1,12 +1,13 @@
-"""Maximum of |B| over rooms' prisms: band faces and walls, refined by compass search.
+"""Maximum of |B| over rooms' prisms: starts on the band faces and walls, then one search.
 
 In a current-free region every Cartesian component of B is harmonic, so |B|^2 is
 subharmonic and its maximum over a room's prism lies on the prism's boundary
 (weak maximum principle; L. C. Evans, *Partial Differential Equations*, 2nd ed.,
 2010, sec. 2.2.3, section number from memory).  See :mod:`siting.analysis.checks`
-for how the search is laid out; this module holds the search itself.  The rooms
-of every floor are searched together, so each step of the search is one
-vectorised ``scene.magnitude`` call for the whole site.
+for how the search is laid out; this module finds the starts and
+:mod:`siting.analysis.roomsearch` refines them.  The rooms of every floor are
+searched together, so each step of the search is one vectorised
+``scene.magnitude`` call for the whole site.
 """
 
 from __future__ import annotations
