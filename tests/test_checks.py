@@ -10,8 +10,9 @@ from scipy.integrate import quad
 from shapely.geometry import Point, Polygon
 from test_grid import Counting, PointDipole
 
+from siting.analysis.band import band_max
 from siting.analysis.checks import access_boundary, check_equipment, check_room, check_site
-from siting.analysis.grid import band_max, floor_grid
+from siting.analysis.grid import floor_grid
 from siting.fields.scene import Scene
 from siting.site.model import Equipment, Floor, Room, Site, SiteInfo
 
@@ -243,15 +244,17 @@ def test_check_site_on_a_floor_of_100_rooms():
     ff = res.floor_fields["g"]
     first = floor_grid(site, "g")  # the first pass, before the lines asked for a finer grid
     assert ff.grid.spacing < first.spacing
-    grid_points = ff.grid.heights.size * ff.bmax.size
-    grid_points += first.heights.size * first.x.size * first.y.size
-    check_points = scene.points - grid_points
-    # measured: 28 227 + 60 492 grid points (97 x 97 x 3, then 142 x 142 x 3) against
-    # 10 485 for the 100 room checks and the equipment, in 12 scene calls in all (2 for
-    # the grids); 4 861 in 8 calls at a 0.1 m spacing (390 963 grid points, 3 calls): the
-    # searches do not grow with the grid
-    assert check_points < 0.15 * grid_points
-    assert scene.calls <= 13
+    maps = Counting(scene.scene)  # what the two field maps cost on their own
+    band_max(maps, first, ceiling=ACCESS)
+    band_max(maps, ff.grid, ceiling=ACCESS)
+    check_points = scene.points - maps.points
+    # measured: 4 scene calls and 117 475 points for the two field maps (97 x 97 and
+    # 142 x 142 nodes at 3 heights, plus one probe above the lowest face per node below
+    # the access level), and 8 765 points in 10 calls for the 100 room checks and the
+    # equipment; 5 936 at a 0.1 m spacing (517 659 for the map): the searches do not grow
+    # with the grid
+    assert check_points < 0.1 * maps.points
+    assert scene.calls - maps.calls <= 11
     fails = [r for r in res.rooms if r.status == "fail"]
     assert res.failures == len(fails) + sum(not a.contained for a in res.access) + sum(
         e.status == "fail" for e in res.equipment
@@ -313,9 +316,13 @@ def test_rooms_of_all_floors_are_searched_together():
         alone_calls.append(scene.calls)
         assert alone.max_T == pytest.approx(r.max_T, rel=1e-12)
         np.testing.assert_allclose(alone.at_m, r.at_m, rtol=0, atol=1e-9)
-    # one call per floor for the grids (its 3 heights at once), then as many calls as
-    # the longest search
-    assert together - 3 == max(alone_calls)
+    # the calls of the three field maps, then as many calls as the longest search
+    from siting.analysis.checks import line_levels
+
+    maps = Counting(scene.scene)
+    for fid, ff in res.floor_fields.items():
+        band_max(maps, ff.grid, ceiling=line_levels(site, fid)[-1])
+    assert together - maps.calls == max(alone_calls)
     assert {r.status for r in res.rooms} == {"pass", "fail"}
 
 

@@ -7,6 +7,7 @@ from scipy.optimize import brentq
 from shapely.geometry import Point, Polygon, box
 from test_grid import PointDipole
 
+from siting.analysis.band import band_max
 from siting.analysis.contours import (
     level_lines,
     level_region,
@@ -14,7 +15,7 @@ from siting.analysis.contours import (
     reaches_border,
     region_area,
 )
-from siting.analysis.grid import FloorField, PlanGrid, band_max
+from siting.analysis.grid import FloorField, PlanGrid
 from siting.fields.scene import Scene
 
 M = 1.0e4  # dipole moment [A m^2]

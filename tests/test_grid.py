@@ -4,7 +4,8 @@ import numpy as np
 import pytest
 from scipy.constants import mu_0
 
-from siting.analysis.grid import MAX_PLAN_POINTS, FloorField, PlanGrid, band_max, floor_grid
+from siting.analysis.band import band_max
+from siting.analysis.grid import MAX_PLAN_POINTS, FloorField, PlanGrid, floor_grid
 from siting.errors import SitingError
 from siting.fields.scene import Scene
 from siting.site.model import Dipole, Equipment, Floor, Room, Site, SiteInfo
@@ -102,7 +103,7 @@ def test_band_max_matches_closed_form():
     src = PointDipole([0.0, 0.0, 0.0], [0.0, 0.0, m])
     grid = PlanGrid("g", np.linspace(-3, 3, 13), np.linspace(-2, 2, 9), [0.5, 1.5, 1.0])
     sc = Counting(Scene([src]))
-    ff = band_max(sc, grid)
+    ff = band_max(sc, grid, refine=False)  # the check heights alone
     assert sc.calls == 1 and sc.points == 3 * 13 * 9  # the three heights in one call
     assert ff.bmax.shape == (9, 13) and not ff.invalid.any()
     # independent evaluation of Jackson eq. 5.56 in spherical form:
@@ -120,15 +121,15 @@ def test_band_max_matches_closed_form():
 
 
 def test_band_max_calls_per_height_on_a_large_grid():
-    from siting.analysis.grid import BAND_CALL_POINTS
+    from siting.analysis.band import BAND_CALL_POINTS
 
     src = PointDipole([0.0, 0.0, 0.0], [0.0, 0.0, 1e3])
     x = np.linspace(-3, 3, 300)  # 90 000 plan nodes > BAND_CALL_POINTS
     grid = PlanGrid("g", x, x, [0.5, 1.5, 1.0])
     sc = Counting(Scene([src]))
-    ff = band_max(sc, grid)
+    ff = band_max(sc, grid, refine=False)
     assert 300 * 300 > BAND_CALL_POINTS and sc.calls == 3
-    small = band_max(Scene([src]), PlanGrid("g", x[::10], x[::10], [0.5, 1.5, 1.0]))
+    small = band_max(Scene([src]), PlanGrid("g", x[::10], x[::10], [0.5, 1.5, 1.0]), refine=False)
     np.testing.assert_array_equal(ff.bmax[::10, ::10], small.bmax)  # same nodes, same values
 
 

@@ -55,8 +55,9 @@ import numpy as np
 import shapely
 from shapely.geometry import MultiPolygon, Polygon
 
+from siting.analysis.band import band_max
 from siting.analysis.contours import LINE_TOL, clearance, level_region, line_error
-from siting.analysis.grid import FloorField, band_max, floor_grid, refined
+from siting.analysis.grid import FloorField, floor_grid, refined
 from siting.analysis.roommax import room_maxima
 from siting.errors import SitingError
 from siting.site.model import Equipment, Room, Site
@@ -261,7 +262,8 @@ def line_levels(site: Site, floor_id: str) -> tuple[float, ...]:
 
 
 def map_floor(site: Site, scene, floor_id: str, *, spacing: float | None = None) -> FloorField:
-    """The band maximum on a floor's grid.
+    """The band maximum on a floor's grid (:func:`siting.analysis.band.band_max`,
+    searched between the check heights up to the highest of :func:`line_levels`).
 
     With ``spacing`` given, on :func:`floor_grid` at that spacing.  Without,
     :func:`floor_grid`'s automatic spacing is a first pass: when
@@ -271,14 +273,15 @@ def map_floor(site: Site, scene, floor_id: str, *, spacing: float | None = None)
     :func:`siting.analysis.grid.refined`, and the finer map is returned.
     """
     grid = floor_grid(site, floor_id, spacing=spacing)
-    ff = band_max(scene, grid)
+    levels = line_levels(site, floor_id)
+    ff = band_max(scene, grid, ceiling=levels[-1])
     if spacing is not None:
         return ff
-    err = line_error(ff, line_levels(site, floor_id))
+    err = line_error(ff, levels)
     if err > LINE_TOL:
         finer = refined(grid, grid.spacing * math.sqrt(LINE_TOL / err))
         if finer is not grid:
-            ff = band_max(scene, finer)
+            ff = band_max(scene, finer, ceiling=levels[-1])
     return ff
 
 

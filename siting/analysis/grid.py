@@ -1,10 +1,9 @@
-"""Plan grids per floor and the maximum of |B| over the check-height band.
+"""Plan grids per floor and the field map on them.
 
-A floor's field map is the maximum of |B| over the heights at which people are
-checked (``site.info.check_heights`` above the floor's finished level), taken
-node by node on a regular plan grid.  The nodes are evaluated as many heights
-per ``scene.magnitude`` call as fit in ``BAND_CALL_POINTS`` points (one height
-per call on a larger grid); the scene does its own bounded-memory chunking.
+A floor's field map (:class:`FloorField`) is the maximum of |B| over the band
+of heights at which people are checked (``site.info.check_heights`` above the
+floor's finished level), node by node on a regular plan grid; it is computed
+by :func:`siting.analysis.band.band_max`.
 
 Grid extent and spacing (the defaults of :func:`floor_grid`):
 
@@ -30,7 +29,6 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass
 
-import numba
 import numpy as np
 import shapely
 
@@ -39,8 +37,6 @@ from siting.site.model import Site
 
 #: Default cap on plan nodes per floor (the grid's nx * ny).
 MAX_PLAN_POINTS = 400_000
-#: Points per field call in :func:`band_max` (heights are grouped up to this).
-BAND_CALL_POINTS = 2**16
 #: Bounds of the automatic spacing [m].
 MIN_SPACING, MAX_SPACING = 0.05, 0.5
 #: Automatic spacing on a floor that has no rooms [m].
@@ -319,61 +315,3 @@ def floor_grid(
             raise ValueError(f"spacing must be finite and > 0; got {spacing!r}")
     heights = floor.elevation + np.asarray(site.info.check_heights, dtype=np.float64)
     return PlanGrid(floor_id, _nodes(x0, x1, h), _nodes(y0, y1, h), heights)
-
-
-@numba.njit(cache=True)
-def _fill_points(x, y, zs, out):
-    """Plan nodes (y outer, x inner) at each height of ``zs`` in turn, into out (k n, 3)."""
-    m = 0
-    for z in zs:
-        for yj in y:
-            for xi in x:
-                out[m, 0], out[m, 1], out[m, 2] = xi, yj, z
-                m += 1
-
-
-@numba.njit(cache=True)
-def _fold_heights(mags, zs, bmax, zmax, invalid, valid_any):
-    """Fold |B| at heights ``zs`` (k, n) into the running maximum (the lowest
-    height wins a tie) and the masks of undefined and of valid nodes."""
-    for k in range(zs.size):
-        for i in range(mags.shape[1]):
-            v = mags[k, i]
-            if math.isnan(v):
-                invalid[i] = True
-            else:
-                valid_any[i] = True
-                if v > bmax[i]:
-                    bmax[i], zmax[i] = v, zs[k]
-
-
-def band_max(scene, grid: PlanGrid) -> FloorField:
-    """Max of |B| over the grid's check heights, node by node.
-
-    Parameters
-    ----------
-    scene : object with ``magnitude(points (n, 3) [m]) -> (n,) [T]``
-        Called with all ``ny * nx`` plan nodes at as many heights at once as
-        fit in ``BAND_CALL_POINTS`` points (at least one height per call).
-    grid : PlanGrid
-        Plan nodes and check heights.
-
-    Returns
-    -------
-    FloorField
-    """
-    ny, nx = grid.shape
-    n = ny * nx
-    per_call = max(1, BAND_CALL_POINTS // n)
-    bmax = np.full(n, -np.inf)
-    zmax = np.full(n, np.nan)
-    invalid = np.zeros(n, dtype=bool)
-    valid_any = np.zeros(n, dtype=bool)
-    for k0 in range(0, grid.heights.size, per_call):
-        zs = grid.heights[k0 : k0 + per_call]
-        pts = np.empty((zs.size * n, 3))
-        _fill_points(grid.x, grid.y, zs, pts)
-        mags = np.asarray(scene.magnitude(pts), dtype=np.float64)
-        _fold_heights(mags.reshape(zs.size, n), zs, bmax, zmax, invalid, valid_any)
-    bmax[~valid_any] = np.nan
-    return FloorField(grid, bmax.reshape(ny, nx), invalid.reshape(ny, nx), zmax.reshape(ny, nx))

@@ -1,0 +1,213 @@
+"""The maximum of |B| over a floor's check-height band, node by node.
+
+Each plan node is first evaluated at every check height (as many heights per
+``scene.magnitude`` call as fit in ``BAND_CALL_POINTS`` points; the scene does
+its own bounded-memory chunking).  The maximum over the band can lie between
+two check heights: beside a magnet whose isocentre is not at a check height,
+or, far more, beside a cable that runs through the band, whose field falls as
+1 / distance.  So each node's best sampled height is then refined over the
+bracket formed by its neighbouring check heights, by a one-dimensional search
+for the maximum: a node whose best height is a band face keeps it when |B|
+falls from the face into the band (a probe Z_TOL / 2 inside); otherwise
+successive parabolic interpolation through the bracket's three best points,
+with a golden-section step where the parabola is unusable
+(a bracketing search as in R. P. Brent, *Algorithms for Minimization without
+Derivatives*, 1973, ch. 5; chapter from memory).  All nodes move together, one
+field call per step over the nodes not yet converged; a node stops when its
+bracket is shorter than ``Z_TOL``, its best point moved by no more than
+``Z_TOL / 2`` (no trial is closer than that to the best point: about 1e-4
+of the value for a peak 0.1 m wide), or the parabola through its bracket
+promised, and its vertex gave, a gain below ``RTOL`` of its value (a broad,
+flat maximum).  Either
+moves a line by far less than a millimetre.  The search is local: a second,
+separate peak within the band away from the best check height is not looked
+for.
+"""
+
+from __future__ import annotations
+
+import math
+
+import numba
+import numpy as np
+
+from siting.analysis.grid import FloorField, PlanGrid
+
+#: Points per field call for the check heights (heights are grouped up to this).
+BAND_CALL_POINTS = 2**16
+#: A node's search stops when its bracket in z is shorter than this [m], when its
+#: best point moved by no more than half of it (the shortest step tried) ...
+Z_TOL = 0.01
+#: ... or when the parabola through its bracket promises less than this gain,
+#: relative to its value.
+RTOL = 1e-5
+#: Cap on the search's steps (each one field call).
+MAX_Z_STEPS = 24
+_GOLD = 0.5 * (3.0 - math.sqrt(5.0))  # 0.381966...
+
+
+@numba.njit(cache=True)
+def _fill_points(x, y, zs, out):
+    """Plan nodes (y outer, x inner) at each height of ``zs`` in turn, into out (k n, 3)."""
+    m = 0
+    for z in zs:
+        for yj in y:
+            for xi in x:
+                out[m, 0], out[m, 1], out[m, 2] = xi, yj, z
+                m += 1
+
+
+@numba.njit(cache=True)
+def _brackets(mags, zs, bx, bf, lo, lo_f, hi, hi_f, invalid, valid_any):
+    """Best check height per node and its neighbours as the search bracket.
+
+    ``mags`` (k, n); fills ``bx``/``bf`` (best height and value, the lowest
+    height winning a tie), ``lo``/``hi`` and their values (the neighbouring
+    heights, or the best one itself at a band face), and the masks of nodes
+    undefined at some height and of nodes valid at some height."""
+    k, n = mags.shape
+    for i in range(n):
+        best = -1
+        for j in range(k):
+            v = mags[j, i]
+            if math.isnan(v):
+                invalid[i] = True
+            else:
+                valid_any[i] = True
+                if best < 0 or v > mags[best, i]:
+                    best = j
+        if best < 0:
+            bf[i] = -np.inf
+            continue
+        jl, jh = max(best - 1, 0), min(best + 1, k - 1)
+        bx[i], bf[i] = zs[best], mags[best, i]
+        lo[i], lo_f[i] = zs[jl], mags[jl, i]
+        hi[i], hi_f[i] = zs[jh], mags[jh, i]
+
+
+@numba.njit(cache=True)
+def _propose(x, fx, a, fa, b, fb, last, z_tol, rtol, u, flat):
+    """Next trial height per node inside its bracket (a, b) around x; ``flat``
+    marks the nodes whose parabola through the bracket promises a gain below
+    ``rtol`` of their value (converged if the trial confirms it).  ``last`` is
+    the bracket's length before the previous step: when that step shrank it by
+    less than a fifth, a golden-section step replaces the parabola's (unless
+    the parabola is flat), the safeguard of Brent's method against slow
+    parabolic steps on a sharp peak."""
+    for i in range(x.size):
+        u[i] = np.nan
+        flat[i] = False
+        ok = False
+        if a[i] < x[i] < b[i]:
+            # f(t) ~ fx + c1 (t - x) + c2 (t - x)^2 through the three points
+            sb, sa = (fb[i] - fx[i]) / (b[i] - x[i]), (fa[i] - fx[i]) / (a[i] - x[i])
+            c2 = (sb - sa) / (b[i] - a[i])
+            c1 = sb - c2 * (b[i] - x[i])
+            if c2 < 0.0:
+                t = x[i] - c1 / (2.0 * c2)
+                if a[i] < t < b[i]:
+                    flat[i] = -c1 * c1 / (4.0 * c2) <= rtol * fx[i]
+                    if flat[i] or b[i] - a[i] < 0.8 * last[i]:
+                        u[i], ok = t, True
+        if not ok and (x[i] == a[i] or x[i] == b[i]):
+            # best at a band face: probe just inside it; the face holds the maximum
+            # when |B| falls from it into the band (a local test)
+            u[i] = x[i] + 0.5 * z_tol if x[i] == a[i] else x[i] - 0.5 * z_tol
+            u[i] = min(max(u[i], a[i]), b[i])
+            continue
+        if not ok:  # golden section into the longer side
+            if b[i] - x[i] >= x[i] - a[i]:
+                u[i] = x[i] + _GOLD * (b[i] - x[i])
+            else:
+                u[i] = x[i] - _GOLD * (x[i] - a[i])
+        # keep a trial at least z_tol / 2 from x, on the side the step was going,
+        # inside the bracket; a pushed trial cannot confirm a flat parabola
+        if abs(u[i] - x[i]) < 0.5 * z_tol:
+            step = 0.5 * z_tol if u[i] >= x[i] else -0.5 * z_tol
+            if not a[i] < x[i] + step < b[i]:  # that side is already shorter: the other
+                step = -step
+            u[i] = min(max(x[i] + step, a[i]), b[i])
+            flat[i] = False
+
+
+@numba.njit(cache=True)
+def _update(x, fx, a, fa, b, fb, u, fu, z_tol, done):
+    """Shrink each bracket with the trial (u, fu); mark the nodes that converged."""
+    for i in range(x.size):
+        face = x[i] == a[i] or x[i] == b[i]
+        if face and not fu[i] > fx[i]:
+            done[i] = True  # falls from the face into the band
+            continue
+        if fu[i] > fx[i]:
+            if u[i] < x[i]:
+                b[i], fb[i] = x[i], fx[i]
+            else:
+                a[i], fa[i] = x[i], fx[i]
+            x[i], fx[i] = u[i], fu[i]
+        elif u[i] < x[i]:
+            a[i], fa[i] = u[i], fu[i]
+        else:
+            b[i], fb[i] = u[i], fu[i]
+        done[i] = b[i] - a[i] <= z_tol * (1 + 1e-9)  # converged: the bracket is short
+
+
+def band_max(scene, grid: PlanGrid, *, refine: bool = True, ceiling: float = np.inf) -> FloorField:
+    """Max of |B| over the grid's check band, node by node (method: module docstring).
+
+    Parameters
+    ----------
+    scene : object with ``magnitude(points (n, 3) [m]) -> (n,) [T]``
+        The field model; NaN where undefined.
+    grid : PlanGrid
+        Plan nodes and check heights.
+    refine : bool
+        Search between the check heights (default); ``False`` keeps the
+        maximum over the check heights alone.
+    ceiling : float [T]
+        A node's search stops once its value reaches this (e.g. the highest
+        level to be drawn or checked): it can only grow further, and no line
+        at or below the ceiling moves.
+
+    Returns
+    -------
+    FloorField
+        A node where the model is undefined at a check height, or at a height
+        the search tried, is ``invalid``.
+    """
+    ny, nx = grid.shape
+    n = ny * nx
+    zs = grid.heights
+    per_call = max(1, BAND_CALL_POINTS // n)
+    mags = np.empty((zs.size, n))
+    for k0 in range(0, zs.size, per_call):
+        zk = zs[k0 : k0 + per_call]
+        pts = np.empty((zk.size * n, 3))
+        _fill_points(grid.x, grid.y, zk, pts)
+        mags[k0 : k0 + zk.size] = np.asarray(scene.magnitude(pts), dtype=np.float64).reshape(-1, n)
+    x, fx = np.full(n, np.nan), np.empty(n)
+    a, fa, b, fb = np.empty(n), np.empty(n), np.empty(n), np.empty(n)
+    invalid, valid_any = np.zeros(n, dtype=bool), np.zeros(n, dtype=bool)
+    _brackets(mags, zs, x, fx, a, fa, b, fb, invalid, valid_any)
+    if refine and zs.size > 1:
+        plan = np.column_stack([np.tile(grid.x, ny), np.repeat(grid.y, nx)])
+        act = np.flatnonzero(~invalid & valid_any & (fx < ceiling))
+        last = np.full(n, np.inf)
+        for _ in range(MAX_Z_STEPS):
+            if act.size == 0:
+                break
+            u, flat = np.empty(act.size), np.empty(act.size, dtype=bool)
+            xa, fxa, aa, faa, ba, fba = x[act], fx[act], a[act], fa[act], b[act], fb[act]
+            _propose(xa, fxa, aa, faa, ba, fba, last[act], Z_TOL, RTOL, u, flat)
+            last[act] = ba - aa
+            fu = np.asarray(scene.magnitude(np.column_stack([plan[act], u])), dtype=np.float64)
+            bad = np.isnan(fu)
+            invalid[act[bad]] = True
+            fu[bad] = -np.inf
+            done = np.empty(act.size, dtype=bool)
+            _update(xa, fxa, aa, faa, ba, fba, u, fu, Z_TOL, done)
+            done |= flat & (fu - fx[act] <= RTOL * fx[act])  # the flat parabola held
+            x[act], fx[act], a[act], fa[act], b[act], fb[act] = xa, fxa, aa, faa, ba, fba
+            act = act[~(done | bad) & (fxa < ceiling)]
+    bmax = np.where(valid_any, fx, np.nan)
+    zmax = np.where(valid_any, x, np.nan)
+    return FloorField(grid, bmax.reshape(ny, nx), invalid.reshape(ny, nx), zmax.reshape(ny, nx))
