@@ -86,69 +86,81 @@ def _brackets(mags, zs, bx, bf, lo, lo_f, hi, hi_f, invalid, valid_any):
 
 
 @numba.njit(cache=True)
-def _propose(x, fx, a, fa, b, fb, last, z_tol, rtol, u, flat):
-    """Next trial height per node inside its bracket (a, b) around x; ``flat``
-    marks the nodes whose parabola through the bracket promises a gain below
-    ``rtol`` of their value (converged if the trial confirms it).  ``last`` is
-    the bracket's length before the previous step: when that step shrank it by
-    less than a fifth, a golden-section step replaces the parabola's (unless
-    the parabola is flat), the safeguard of Brent's method against slow
-    parabolic steps on a sharp peak."""
-    for i in range(x.size):
-        u[i] = np.nan
-        flat[i] = False
+def _propose(act, x, fx, a, fa, b, fb, last, gx, gy, z_tol, rtol, pts, flat):
+    """Next trial point per active node ``act[m]``, into ``pts[m]``, inside its
+    bracket (a, b) around x.  ``flat[m]`` marks a node whose parabola through
+    the bracket promises a gain below ``rtol`` of its value (converged if the
+    trial confirms it).  ``last`` is the bracket's length before the previous
+    step: when that step shrank it by less than a fifth, a golden-section step
+    replaces the parabola's (unless the parabola is flat), the safeguard of
+    Brent's method against slow parabolic steps on a sharp peak."""
+    nx = gx.size
+    for m in range(act.size):
+        i = act[m]
+        xi, ai, bi = x[i], a[i], b[i]
+        u = np.nan
+        flat[m] = False
         ok = False
-        if a[i] < x[i] < b[i]:
+        if ai < xi < bi:
             # f(t) ~ fx + c1 (t - x) + c2 (t - x)^2 through the three points
-            sb, sa = (fb[i] - fx[i]) / (b[i] - x[i]), (fa[i] - fx[i]) / (a[i] - x[i])
-            c2 = (sb - sa) / (b[i] - a[i])
-            c1 = sb - c2 * (b[i] - x[i])
+            sb, sa = (fb[i] - fx[i]) / (bi - xi), (fa[i] - fx[i]) / (ai - xi)
+            c2 = (sb - sa) / (bi - ai)
+            c1 = sb - c2 * (bi - xi)
             if c2 < 0.0:
-                t = x[i] - c1 / (2.0 * c2)
-                if a[i] < t < b[i]:
-                    flat[i] = -c1 * c1 / (4.0 * c2) <= rtol * fx[i]
-                    if flat[i] or b[i] - a[i] < 0.8 * last[i]:
-                        u[i], ok = t, True
-        if not ok and (x[i] == a[i] or x[i] == b[i]):
+                t = xi - c1 / (2.0 * c2)
+                if ai < t < bi:
+                    flat[m] = -c1 * c1 / (4.0 * c2) <= rtol * fx[i]
+                    if flat[m] or bi - ai < 0.8 * last[i]:
+                        u, ok = t, True
+        last[i] = bi - ai
+        if not ok and (xi == ai or xi == bi):
             # best at a band face: probe just inside it; the face holds the maximum
             # when |B| falls from it into the band (a local test)
-            u[i] = x[i] + 0.5 * z_tol if x[i] == a[i] else x[i] - 0.5 * z_tol
-            u[i] = min(max(u[i], a[i]), b[i])
-            continue
-        if not ok:  # golden section into the longer side
-            if b[i] - x[i] >= x[i] - a[i]:
-                u[i] = x[i] + _GOLD * (b[i] - x[i])
-            else:
-                u[i] = x[i] - _GOLD * (x[i] - a[i])
-        # keep a trial at least z_tol / 2 from x, on the side the step was going,
-        # inside the bracket; a pushed trial cannot confirm a flat parabola
-        if abs(u[i] - x[i]) < 0.5 * z_tol:
-            step = 0.5 * z_tol if u[i] >= x[i] else -0.5 * z_tol
-            if not a[i] < x[i] + step < b[i]:  # that side is already shorter: the other
-                step = -step
-            u[i] = min(max(x[i] + step, a[i]), b[i])
-            flat[i] = False
+            u = min(max(xi + 0.5 * z_tol if xi == ai else xi - 0.5 * z_tol, ai), bi)
+        else:
+            if not ok:  # golden section into the longer side
+                u = xi + _GOLD * (bi - xi) if bi - xi >= xi - ai else xi - _GOLD * (xi - ai)
+            # keep a trial at least z_tol / 2 from x, on the side the step was going,
+            # inside the bracket; a pushed trial cannot confirm a flat parabola
+            if abs(u - xi) < 0.5 * z_tol:
+                step = 0.5 * z_tol if u >= xi else -0.5 * z_tol
+                if not ai < xi + step < bi:  # that side is already shorter: the other
+                    step = -step
+                u = min(max(xi + step, ai), bi)
+                flat[m] = False
+        pts[m, 0], pts[m, 1], pts[m, 2] = gx[i % nx], gy[i // nx], u
 
 
 @numba.njit(cache=True)
-def _update(x, fx, a, fa, b, fb, u, fu, z_tol, done):
-    """Shrink each bracket with the trial (u, fu); mark the nodes that converged."""
-    for i in range(x.size):
-        face = x[i] == a[i] or x[i] == b[i]
-        if face and not fu[i] > fx[i]:
-            done[i] = True  # falls from the face into the band
+def _update(act, x, fx, a, fa, b, fb, pts, fu, flat, rtol, z_tol, ceiling, invalid, done):
+    """Shrink each active bracket with its trial (pts[m, 2], fu[m]); mark the
+    nodes that are finished: converged, undefined at the trial, or at the ceiling."""
+    for m in range(act.size):
+        i, u, f = act[m], pts[m, 2], fu[m]
+        if math.isnan(f):  # the model is undefined inside the band here
+            invalid[i] = True
+            done[m] = True
             continue
-        if fu[i] > fx[i]:
-            if u[i] < x[i]:
-                b[i], fb[i] = x[i], fx[i]
+        old = fx[i]
+        face = x[i] == a[i] or x[i] == b[i]
+        if face and not f > old:
+            done[m] = True  # falls from the face into the band
+            continue
+        if f > old:
+            if u < x[i]:
+                b[i], fb[i] = x[i], old
             else:
-                a[i], fa[i] = x[i], fx[i]
-            x[i], fx[i] = u[i], fu[i]
-        elif u[i] < x[i]:
-            a[i], fa[i] = u[i], fu[i]
+                a[i], fa[i] = x[i], old
+            x[i], fx[i] = u, f
+        elif u < x[i]:
+            a[i], fa[i] = u, f
         else:
-            b[i], fb[i] = u[i], fu[i]
-        done[i] = b[i] - a[i] <= z_tol * (1 + 1e-9)  # converged: the bracket is short
+            b[i], fb[i] = u, f
+        done[m] = (
+            b[i] - a[i] <= z_tol * (1 + 1e-9)  # the bracket is short
+            or (flat[m] and f - old <= rtol * old)  # the flat parabola held
+            or fx[i] >= ceiling
+        )
 
 
 def band_max(scene, grid: PlanGrid, *, refine: bool = True, ceiling: float = np.inf) -> FloorField:
@@ -189,25 +201,18 @@ def band_max(scene, grid: PlanGrid, *, refine: bool = True, ceiling: float = np.
     invalid, valid_any = np.zeros(n, dtype=bool), np.zeros(n, dtype=bool)
     _brackets(mags, zs, x, fx, a, fa, b, fb, invalid, valid_any)
     if refine and zs.size > 1:
-        plan = np.column_stack([np.tile(grid.x, ny), np.repeat(grid.y, nx)])
         act = np.flatnonzero(~invalid & valid_any & (fx < ceiling))
         last = np.full(n, np.inf)
         for _ in range(MAX_Z_STEPS):
             if act.size == 0:
                 break
-            u, flat = np.empty(act.size), np.empty(act.size, dtype=bool)
-            xa, fxa, aa, faa, ba, fba = x[act], fx[act], a[act], fa[act], b[act], fb[act]
-            _propose(xa, fxa, aa, faa, ba, fba, last[act], Z_TOL, RTOL, u, flat)
-            last[act] = ba - aa
-            fu = np.asarray(scene.magnitude(np.column_stack([plan[act], u])), dtype=np.float64)
-            bad = np.isnan(fu)
-            invalid[act[bad]] = True
-            fu[bad] = -np.inf
+            pts = np.empty((act.size, 3))
+            flat = np.empty(act.size, dtype=bool)
+            _propose(act, x, fx, a, fa, b, fb, last, grid.x, grid.y, Z_TOL, RTOL, pts, flat)
+            fu = np.asarray(scene.magnitude(pts), dtype=np.float64)
             done = np.empty(act.size, dtype=bool)
-            _update(xa, fxa, aa, faa, ba, fba, u, fu, Z_TOL, done)
-            done |= flat & (fu - fx[act] <= RTOL * fx[act])  # the flat parabola held
-            x[act], fx[act], a[act], fa[act], b[act], fb[act] = xa, fxa, aa, faa, ba, fba
-            act = act[~(done | bad) & (fxa < ceiling)]
+            _update(act, x, fx, a, fa, b, fb, pts, fu, flat, RTOL, Z_TOL, ceiling, invalid, done)
+            act = act[~done]
     bmax = np.where(valid_any, fx, np.nan)
     zmax = np.where(valid_any, x, np.nan)
     return FloorField(grid, bmax.reshape(ny, nx), invalid.reshape(ny, nx), zmax.reshape(ny, nx))
