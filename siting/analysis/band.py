@@ -163,7 +163,29 @@ def _update(act, x, fx, a, fa, b, fb, pts, fu, flat, rtol, z_tol, ceiling, inval
         )
 
 
-def band_max(scene, grid: PlanGrid, *, refine: bool = True, ceiling: float = np.inf) -> FloorField:
+def band_samples(scene, grid: PlanGrid) -> np.ndarray:
+    """|B| at every plan node at every check height, shape (k, ny * nx) [T]
+    (rows: heights; columns: nodes, y outer, x inner); NaN where undefined."""
+    n = grid.shape[0] * grid.shape[1]
+    zs = grid.heights
+    per_call = max(1, BAND_CALL_POINTS // n)
+    mags = np.empty((zs.size, n))
+    for k0 in range(0, zs.size, per_call):
+        zk = zs[k0 : k0 + per_call]
+        pts = np.empty((zk.size * n, 3))
+        _fill_points(grid.x, grid.y, zk, pts)
+        mags[k0 : k0 + zk.size] = np.asarray(scene.magnitude(pts), dtype=np.float64).reshape(-1, n)
+    return mags
+
+
+def band_max(
+    scene,
+    grid: PlanGrid,
+    *,
+    refine: bool = True,
+    ceiling: float = np.inf,
+    samples: np.ndarray | None = None,
+) -> FloorField:
     """Max of |B| over the grid's check band, node by node (method: module docstring).
 
     Parameters
@@ -179,6 +201,8 @@ def band_max(scene, grid: PlanGrid, *, refine: bool = True, ceiling: float = np.
         A node's search stops once its value reaches this (e.g. the highest
         level to be drawn or checked): it can only grow further, and no line
         at or below the ceiling moves.
+    samples : ndarray, shape (k, ny * nx), optional
+        :func:`band_samples` of this scene and grid, if already computed.
 
     Returns
     -------
@@ -189,13 +213,7 @@ def band_max(scene, grid: PlanGrid, *, refine: bool = True, ceiling: float = np.
     ny, nx = grid.shape
     n = ny * nx
     zs = grid.heights
-    per_call = max(1, BAND_CALL_POINTS // n)
-    mags = np.empty((zs.size, n))
-    for k0 in range(0, zs.size, per_call):
-        zk = zs[k0 : k0 + per_call]
-        pts = np.empty((zk.size * n, 3))
-        _fill_points(grid.x, grid.y, zk, pts)
-        mags[k0 : k0 + zk.size] = np.asarray(scene.magnitude(pts), dtype=np.float64).reshape(-1, n)
+    mags = band_samples(scene, grid) if samples is None else samples
     x, fx = np.full(n, np.nan), np.empty(n)
     a, fa, b, fb = np.empty(n), np.empty(n), np.empty(n), np.empty(n)
     invalid, valid_any = np.zeros(n, dtype=bool), np.zeros(n, dtype=bool)

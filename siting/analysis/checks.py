@@ -55,7 +55,7 @@ import numpy as np
 import shapely
 from shapely.geometry import MultiPolygon, Polygon
 
-from siting.analysis.band import band_max
+from siting.analysis.band import band_max, band_samples
 from siting.analysis.contours import LINE_TOL, clearance, level_region, line_error
 from siting.analysis.grid import FloorField, floor_grid, refined
 from siting.analysis.roommax import room_maxima
@@ -274,15 +274,16 @@ def map_floor(site: Site, scene, floor_id: str, *, spacing: float | None = None)
     """
     grid = floor_grid(site, floor_id, spacing=spacing)
     levels = line_levels(site, floor_id)
-    ff = band_max(scene, grid, ceiling=levels[-1])
-    if spacing is not None:
-        return ff
-    err = line_error(ff, levels)
-    if err > LINE_TOL:
-        finer = refined(grid, grid.spacing * math.sqrt(LINE_TOL / err))
-        if finer is not grid:
-            ff = band_max(scene, finer, ceiling=levels[-1])
-    return ff
+    samples = band_samples(scene, grid)
+    if spacing is None:
+        # the spacing is judged on the check heights alone; a grid that is replaced
+        # is not searched between them
+        err = line_error(band_max(scene, grid, refine=False, samples=samples), levels)
+        if err > LINE_TOL:
+            finer = refined(grid, grid.spacing * math.sqrt(LINE_TOL / err))
+            if finer is not grid:
+                return band_max(scene, finer, ceiling=levels[-1])
+    return band_max(scene, grid, ceiling=levels[-1], samples=samples)
 
 
 def check_site(
