@@ -86,15 +86,15 @@ def _brackets(mags, zs, bx, bf, lo, lo_f, hi, hi_f, invalid, valid_any):
 
 
 @numba.njit(cache=True)
-def _propose(act, x, fx, a, fa, b, fb, last, gx, gy, z_tol, rtol, pts, flat):
+def _propose(act, x, fx, a, fa, b, fb, last, px, py, z_tol, rtol, pts, flat):
     """Next trial point per active node ``act[m]``, into ``pts[m]``, inside its
     bracket (a, b) around x.  ``flat[m]`` marks a node whose parabola through
     the bracket promises a gain below ``rtol`` of its value (converged if the
     trial confirms it).  ``last`` is the bracket's length before the previous
     step: when that step shrank it by less than a fifth, a golden-section step
     replaces the parabola's (unless the parabola is flat), the safeguard of
-    Brent's method against slow parabolic steps on a sharp peak."""
-    nx = gx.size
+    Brent's method against slow parabolic steps on a sharp peak.  ``px``, ``py``
+    are the nodes' plan coordinates."""
     for m in range(act.size):
         i = act[m]
         xi, ai, bi = x[i], a[i], b[i]
@@ -128,7 +128,7 @@ def _propose(act, x, fx, a, fa, b, fb, last, gx, gy, z_tol, rtol, pts, flat):
                     step = -step
                 u = min(max(xi + step, ai), bi)
                 flat[m] = False
-        pts[m, 0], pts[m, 1], pts[m, 2] = gx[i % nx], gy[i // nx], u
+        pts[m, 0], pts[m, 1], pts[m, 2] = px[i], py[i], u
 
 
 @numba.njit(cache=True)
@@ -221,12 +221,13 @@ def band_max(
     if refine and zs.size > 1:
         act = np.flatnonzero(~invalid & valid_any & (fx < ceiling))
         last = np.full(n, np.inf)
+        px, py = np.tile(grid.x, ny), np.repeat(grid.y, nx)
         for _ in range(MAX_Z_STEPS):
             if act.size == 0:
                 break
             pts = np.empty((act.size, 3))
             flat = np.empty(act.size, dtype=bool)
-            _propose(act, x, fx, a, fa, b, fb, last, grid.x, grid.y, Z_TOL, RTOL, pts, flat)
+            _propose(act, x, fx, a, fa, b, fb, last, px, py, Z_TOL, RTOL, pts, flat)
             fu = np.asarray(scene.magnitude(pts), dtype=np.float64)
             done = np.empty(act.size, dtype=bool)
             _update(act, x, fx, a, fa, b, fb, pts, fu, flat, RTOL, Z_TOL, ceiling, invalid, done)
