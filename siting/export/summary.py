@@ -176,8 +176,10 @@ def summary_blocks(site, result, units: str, *, shielding=None) -> list:
         meaning, source = level_meaning(level, site.info.access_limit)
         lv.append(f"{field_text(level, units)}: {meaning} [{source}].")
     heights = ", ".join(f"{h:g}" for h in site.info.check_heights)
-    lv.append(f"Plans show the maximum of |B| over the check heights {heights} m above each "
-              "floor; sections show |B| in the vertical plane of the cut.")
+    lo, hi = min(site.info.check_heights), max(site.info.check_heights)
+    lv.append(f"Plans show the maximum of |B| over {lo:g} to {hi:g} m above each floor (the "
+              f"check heights {heights} m, searched between them); sections show |B| in the "
+              "vertical plane of the cut.")
     blocks.append(Paragraphs("Levels drawn", tuple(lv)))
     blocks.append(Paragraphs("MR safety zones", (ZONES,)))
     blocks.append(Paragraphs("Sources", SOURCES))
