@@ -7,21 +7,25 @@ two check heights: beside a magnet whose isocentre is not at a check height,
 or, far more, beside a cable that runs through the band, whose field falls as
 1 / distance.  So each node's best sampled height is then refined over the
 bracket formed by its neighbouring check heights, by a one-dimensional search
-for the maximum: a node whose best height is a band face keeps it when |B|
-falls from the face into the band (a probe Z_TOL / 2 inside); otherwise
-successive parabolic interpolation through the bracket's three best points,
-with a golden-section step where the parabola is unusable
-(a bracketing search as in R. P. Brent, *Algorithms for Minimization without
-Derivatives*, 1973, ch. 5; chapter from memory).  All nodes move together, one
-field call per step over the nodes not yet converged; a node stops when its
-bracket is shorter than ``Z_TOL``, its best point moved by no more than
-``Z_TOL / 2`` (no trial is closer than that to the best point: about 1e-4
-of the value for a peak 0.1 m wide), or the parabola through its bracket
-promised, and its vertex gave, a gain below ``RTOL`` of its value (a broad,
-flat maximum).  Either
-moves a line by far less than a millimetre.  The search is local: a second,
-separate peak within the band away from the best check height is not looked
-for.
+for the maximum (a bracketing search as in R. P. Brent, *Algorithms for
+Minimization without Derivatives*, 1973, ch. 5; chapter from memory):
+
+* a node whose best height is a band face keeps it when |B| falls from the
+  face into the band (one probe ``Z_TOL / 2`` inside);
+* otherwise each step tries the vertex of the parabola through the bracket's
+  three points, or a golden-section point when the parabola is unusable or the
+  previous step shrank the bracket by less than a fifth (Brent's safeguard
+  against slow parabolic steps on a sharp peak); no trial is closer than
+  ``Z_TOL / 2`` to the best point.
+
+All nodes move together, one field call per step over the nodes not yet
+finished.  A node finishes when its bracket is shorter than ``Z_TOL`` (the
+value is then low by at most about (Z_TOL / w)^2 / 2 for a peak of width w:
+1e-4 at w = 0.1 m), when the parabola through its bracket promised, and its
+vertex gave, a gain below ``RTOL`` of its value (a broad, flat maximum), when
+its value reaches the ``ceiling``, or after ``MAX_Z_STEPS`` steps.  The search
+is local: a second, separate peak within the band away from the best check
+height is not looked for.
 """
 
 from __future__ import annotations
@@ -35,11 +39,10 @@ from siting.analysis.grid import FloorField, PlanGrid
 
 #: Points per field call for the check heights (heights are grouped up to this).
 BAND_CALL_POINTS = 2**16
-#: A node's search stops when its bracket in z is shorter than this [m], when its
-#: best point moved by no more than half of it (the shortest step tried) ...
+#: A node's search stops when its bracket in z is shorter than this [m] ...
 Z_TOL = 0.01
-#: ... or when the parabola through its bracket promises less than this gain,
-#: relative to its value.
+#: ... or when the parabola through its bracket promised, and gave, less than this
+#: gain relative to its value.
 RTOL = 1e-5
 #: Cap on the search's steps (each one field call).
 MAX_Z_STEPS = 24
