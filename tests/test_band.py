@@ -80,3 +80,21 @@ def test_undefined_height_inside_the_band_marks_the_node():
     grid = PlanGrid("g", np.array([-0.01, 0.5]), np.array([0.0, 1.0]), [0.0, 1.0, 2.0])
     ff = band_max(Scene([wire]), grid)
     assert ff.invalid[:, 0].all() and not ff.invalid[:, 1].any()
+
+
+def test_ceiling_stops_the_search_without_moving_lines_below_it():
+    # nodes that reach the ceiling stop there: their value can only grow, so the
+    # region at any level up to the ceiling is the same as with a full search
+    from siting.analysis.contours import level_region
+
+    x = np.linspace(-1.5, 1.5, 61)
+    grid = PlanGrid("g", x, x, [0.0, 1.0, 2.0])
+    scene = Counting(Scene([LongWire([0.0, 0.0, 1.3], [0.0, 1.0, 0.0], CURRENT)]))
+    full = band_max(scene, grid)
+    calls_full, scene.calls = scene.calls, 0
+    capped = band_max(scene, grid, ceiling=5e-4)
+    assert scene.calls <= calls_full
+    assert np.all(capped.bmax[~capped.invalid] <= full.bmax[~capped.invalid] * (1 + 1e-12))
+    for level in (1e-4, 2e-4, 5e-4):
+        a, b = level_region(full, level), level_region(capped, level)
+        assert a.symmetric_difference(b).area < 1e-9

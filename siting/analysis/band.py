@@ -23,7 +23,8 @@ finished.  A node finishes when its bracket is shorter than ``Z_TOL`` (the
 value is then low by at most about (Z_TOL / w)^2 / 2 for a peak of width w:
 1e-4 at w = 0.1 m), when the parabola through its bracket promised, and its
 vertex gave, a gain below ``RTOL`` of its value (a broad, flat maximum), when
-its value reaches the ``ceiling``, or after ``MAX_Z_STEPS`` steps.  The search
+its value and its neighbours' reach the ``ceiling``, or after ``MAX_Z_STEPS``
+steps.  The search
 is local: a second, separate peak within the band away from the best check
 height is not looked for.
 """
@@ -135,7 +136,28 @@ def _propose(act, x, fx, a, fa, b, fb, last, px, py, z_tol, rtol, pts, flat):
 
 
 @numba.njit(cache=True)
-def _update(act, x, fx, a, fa, b, fb, pts, fu, flat, rtol, z_tol, ceiling, invalid, done):
+def _surrounded(fx, invalid, nx, ceiling, i):
+    """Whether node i's eight neighbours (those on the grid) are at or above the
+    ceiling or undefined: then no line at or below the ceiling crosses a cell
+    with node i in it, and node i's exact value no longer matters."""
+    ny = fx.size // nx
+    j0, i0 = i // nx, i % nx
+    for jj in range(max(j0 - 1, 0), min(j0 + 2, ny)):
+        for ii in range(max(i0 - 1, 0), min(i0 + 2, nx)):
+            k = jj * nx + ii
+            if not invalid[k] and not fx[k] >= ceiling:
+                return False  # (node i itself is at or above the ceiling)
+    return True
+
+
+@numba.njit(cache=True)
+def _stoppable(fx, invalid, nx, ceiling, out):
+    for i in range(fx.size):
+        out[i] = fx[i] >= ceiling and _surrounded(fx, invalid, nx, ceiling, i)
+
+
+@numba.njit(cache=True)
+def _update(act, x, fx, a, fa, b, fb, pts, fu, flat, rtol, z_tol, ceiling, invalid, nx, done):
     """Shrink each active bracket with its trial (pts[m, 2], fu[m]); mark the
     nodes that are finished: converged, undefined at the trial, or at the ceiling."""
     for m in range(act.size):
@@ -162,7 +184,7 @@ def _update(act, x, fx, a, fa, b, fb, pts, fu, flat, rtol, z_tol, ceiling, inval
         done[m] = (
             b[i] - a[i] <= z_tol * (1 + 1e-9)  # the bracket is short
             or (flat[m] and f - old <= rtol * old)  # the flat parabola held
-            or fx[i] >= ceiling
+            or (fx[i] >= ceiling and _surrounded(fx, invalid, nx, ceiling, i))
         )
 
 
@@ -201,9 +223,10 @@ def band_max(
         Search between the check heights (default); ``False`` keeps the
         maximum over the check heights alone.
     ceiling : float [T]
-        A node's search stops once its value reaches this (e.g. the highest
-        level to be drawn or checked): it can only grow further, and no line
-        at or below the ceiling moves.
+        A node's search stops once its value and its eight neighbours' reach
+        this (e.g. the highest level to be drawn or checked): values only
+        grow, and no line at or below the ceiling crosses the cells around
+        such a node, so none moves.
     samples : ndarray, shape (k, ny * nx), optional
         :func:`band_samples` of this scene and grid, if already computed.
 
@@ -222,7 +245,9 @@ def band_max(
     invalid, valid_any = np.zeros(n, dtype=bool), np.zeros(n, dtype=bool)
     _brackets(mags, zs, x, fx, a, fa, b, fb, invalid, valid_any)
     if refine and zs.size > 1:
-        act = np.flatnonzero(~invalid & valid_any & (fx < ceiling))
+        stop = np.empty(n, dtype=bool)
+        _stoppable(fx, invalid, nx, ceiling, stop)
+        act = np.flatnonzero(~invalid & valid_any & ~stop)
         last = np.full(n, np.inf)
         px, py = np.tile(grid.x, ny), np.repeat(grid.y, nx)
         for _ in range(MAX_Z_STEPS):
@@ -233,7 +258,9 @@ def band_max(
             _propose(act, x, fx, a, fa, b, fb, last, px, py, Z_TOL, RTOL, pts, flat)
             fu = np.asarray(scene.magnitude(pts), dtype=np.float64)
             done = np.empty(act.size, dtype=bool)
-            _update(act, x, fx, a, fa, b, fb, pts, fu, flat, RTOL, Z_TOL, ceiling, invalid, done)
+            _update(
+                act, x, fx, a, fa, b, fb, pts, fu, flat, RTOL, Z_TOL, ceiling, invalid, nx, done
+            )
             act = act[~done]
     bmax = np.where(valid_any, fx, np.nan)
     zmax = np.where(valid_any, x, np.nan)
