@@ -249,10 +249,10 @@ def test_check_site_on_a_floor_of_100_rooms():
     band_max(maps, ff.grid, ceiling=ACCESS)
     check_points = scene.points - maps.points
     # measured: 3 scene calls and 108 427 points for the two field maps (97 x 97, then
-    # 142 x 142 nodes at 3 heights, plus one probe above the lowest face per node of the
-    # second not yet surrounded by the access level), and 8 765 points in 10 calls for the 100 room checks
-    # and the equipment; 5 936 at a 0.1 m spacing (517 927 for the map): the searches do
-    # not grow with the grid
+    # 142 x 142 nodes at 3 heights, plus one probe above the lowest face for each node of
+    # the second not surrounded by the access level), and 8 765 points in 10 calls for
+    # the 100 room checks and the equipment; 5 936 at a 0.1 m spacing (517 927 for the
+    # map): the searches do not grow with the grid
     assert check_points < 0.1 * maps.points
     assert scene.calls - maps.calls <= 11
     fails = [r for r in res.rooms if r.status == "fail"]
