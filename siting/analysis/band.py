@@ -51,17 +51,6 @@ _GOLD = 0.5 * (3.0 - math.sqrt(5.0))  # 0.381966...
 
 
 @numba.njit(cache=True)
-def _fill_points(x, y, zs, out):
-    """Plan nodes (y outer, x inner) at each height of ``zs`` in turn, into out (k n, 3)."""
-    m = 0
-    for z in zs:
-        for yj in y:
-            for xi in x:
-                out[m, 0], out[m, 1], out[m, 2] = xi, yj, z
-                m += 1
-
-
-@numba.njit(cache=True)
 def _brackets(mags, zs, bx, bf, lo, lo_f, hi, hi_f, invalid, valid_any):
     """Best check height per node and its neighbours as the search bracket.
 
@@ -197,9 +186,9 @@ def band_samples(scene, grid: PlanGrid) -> np.ndarray:
     mags = np.empty((zs.size, n))
     for k0 in range(0, zs.size, per_call):
         zk = zs[k0 : k0 + per_call]
-        pts = np.empty((zk.size * n, 3))
-        _fill_points(grid.x, grid.y, zk, pts)
-        mags[k0 : k0 + zk.size] = np.asarray(scene.magnitude(pts), dtype=np.float64).reshape(-1, n)
+        mags[k0 : k0 + zk.size] = np.asarray(
+            scene.magnitude(grid.points(zk)), dtype=np.float64
+        ).reshape(-1, n)
     return mags
 
 
@@ -249,7 +238,7 @@ def band_max(
         _stoppable(fx, invalid, nx, ceiling, stop)
         act = np.flatnonzero(~invalid & valid_any & ~stop)
         last = np.full(n, np.inf)
-        px, py = np.tile(grid.x, ny), np.repeat(grid.y, nx)
+        px, py = np.ascontiguousarray(grid.plan_points().T)
         for _ in range(MAX_Z_STEPS):
             if act.size == 0:
                 break

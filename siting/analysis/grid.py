@@ -29,6 +29,7 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass
 
+import numba
 import numpy as np
 import shapely
 
@@ -110,14 +111,24 @@ class PlanGrid:
         xx, yy = np.meshgrid(self.x, self.y)
         return np.column_stack([xx.ravel(), yy.ravel()])
 
-    def points(self) -> np.ndarray:
-        """All nodes at all heights, shape (k * ny * nx, 3) [m], height outermost."""
-        plan = self.plan_points()
-        k, n = self.heights.size, plan.shape[0]
-        out = np.empty((k, n, 3))
-        out[:, :, :2] = plan
-        out[:, :, 2] = self.heights[:, None]
-        return out.reshape(k * n, 3)
+    def points(self, heights=None) -> np.ndarray:
+        """All nodes at ``heights`` (default: the grid's own) [m], shape
+        (k * ny * nx, 3) [m], height outermost, then y, then x."""
+        zs = self.heights if heights is None else np.asarray(heights, dtype=np.float64)
+        out = np.empty((zs.size * self.x.size * self.y.size, 3))
+        _fill_points(self.x, self.y, zs.reshape(-1), out)
+        return out
+
+
+@numba.njit(cache=True)
+def _fill_points(x, y, zs, out):
+    """Plan nodes (y outer, x inner) at each height of ``zs`` in turn, into out (k n, 3)."""
+    m = 0
+    for z in zs:
+        for yj in y:
+            for xi in x:
+                out[m, 0], out[m, 1], out[m, 2] = xi, yj, z
+                m += 1
 
 
 @dataclass(frozen=True, eq=False)

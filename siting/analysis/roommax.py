@@ -204,7 +204,6 @@ def room_maxima(scene, groups):
     if nr == 0:
         return best, at, nan_seen
     geoms = np.array([p for polys, _ in groups for p in polys], dtype=object)
-    shapely.prepare(geoms)
     group_of = np.repeat(np.arange(len(groups)), counts)
     first_room = np.cumsum(counts) - counts
 
