@@ -47,7 +47,7 @@ MAX_ITER = 200
 _D = 2  # coordinates per start
 _DIRS = np.concatenate(
     [np.concatenate([np.eye(_D), -np.eye(_D)]) * c for c in POLL_SCALES]
-)  # (6 * 2 / 2 = 12, 2): scale-major, then +x, +y, -x, -y
+)  # (12, 2): for each scale, +x, +y, -x, -y
 _NEAR = 2 * _D * (len(POLL_SCALES) - 1)  # first of the shortest polls
 
 
