@@ -79,49 +79,46 @@ def _brackets(mags, zs, bx, bf, lo, lo_f, hi, hi_f, invalid, valid_any):
 
 
 @numba.njit(cache=True)
-def _propose(act, x, fx, a, fa, b, fb, last, px, py, z_tol, rtol, pts, flat):
-    """Next trial point per active node ``act[m]``, into ``pts[m]``, inside its
-    bracket (a, b) around x.  ``flat[m]`` marks a node whose parabola through
-    the bracket promises a gain below ``rtol`` of its value (converged if the
-    trial confirms it).  ``last`` is the bracket's length before the previous
-    step: when that step shrank it by less than a fifth, a golden-section step
-    replaces the parabola's (unless the parabola is flat), the safeguard of
-    Brent's method against slow parabolic steps on a sharp peak.  ``px``, ``py``
-    are the nodes' plan coordinates."""
-    for m in range(act.size):
-        i = act[m]
-        xi, ai, bi = x[i], a[i], b[i]
-        u = np.nan
-        flat[m] = False
-        ok = False
-        if ai < xi < bi:
-            # f(t) ~ fx + c1 (t - x) + c2 (t - x)^2 through the three points
-            sb, sa = (fb[i] - fx[i]) / (bi - xi), (fa[i] - fx[i]) / (ai - xi)
-            c2 = (sb - sa) / (bi - ai)
-            c1 = sb - c2 * (bi - xi)
-            if c2 < 0.0:
-                t = xi - c1 / (2.0 * c2)
-                if ai < t < bi:
-                    flat[m] = -c1 * c1 / (4.0 * c2) <= rtol * fx[i]
-                    if flat[m] or bi - ai < 0.8 * last[i]:
-                        u, ok = t, True
-        last[i] = bi - ai
-        if not ok and (xi == ai or xi == bi):
-            # best at a band face: probe just inside it; the face holds the maximum
-            # when |B| falls from it into the band (a local test)
-            u = min(max(xi + 0.5 * z_tol if xi == ai else xi - 0.5 * z_tol, ai), bi)
-        else:
-            if not ok:  # golden section into the longer side
-                u = xi + _GOLD * (bi - xi) if bi - xi >= xi - ai else xi - _GOLD * (xi - ai)
-            # keep a trial at least z_tol / 2 from x, on the side the step was going,
-            # inside the bracket; a pushed trial cannot confirm a flat parabola
-            if abs(u - xi) < 0.5 * z_tol:
-                step = 0.5 * z_tol if u >= xi else -0.5 * z_tol
-                if not ai < xi + step < bi:  # that side is already shorter: the other
-                    step = -step
-                u = min(max(xi + step, ai), bi)
-                flat[m] = False
-        pts[m, 0], pts[m, 1], pts[m, 2] = px[i], py[i], u
+def _propose(xi, fxi, ai, fai, bi, fbi, last, z_tol, rtol):
+    """Next trial height inside the bracket (ai, bi) around the best height xi
+    (values f..), and whether the parabola through the bracket promises a gain
+    below ``rtol`` of the value (converged if the trial confirms it).  ``last``
+    is the bracket's length before the previous step: when that step shrank it
+    by less than a fifth, a golden-section step replaces the parabola's (unless
+    the parabola is flat), the safeguard of Brent's method against slow
+    parabolic steps on a sharp peak.  (Scalars in and out: numba passes arrays
+    to a compiled callee with reference counting, which costs more than the
+    arithmetic here.)"""
+    u = np.nan
+    flat = False
+    ok = False
+    if ai < xi < bi:
+        # f(t) ~ fx + c1 (t - x) + c2 (t - x)^2 through the three points
+        sb, sa = (fbi - fxi) / (bi - xi), (fai - fxi) / (ai - xi)
+        c2 = (sb - sa) / (bi - ai)
+        c1 = sb - c2 * (bi - xi)
+        if c2 < 0.0:
+            t = xi - c1 / (2.0 * c2)
+            if ai < t < bi:
+                flat = -c1 * c1 / (4.0 * c2) <= rtol * fxi
+                if flat or bi - ai < 0.8 * last:
+                    u, ok = t, True
+    if not ok and (xi == ai or xi == bi):
+        # best at a band face: probe just inside it; the face holds the maximum
+        # when |B| falls from it into the band (a local test)
+        u = min(max(xi + 0.5 * z_tol if xi == ai else xi - 0.5 * z_tol, ai), bi)
+    else:
+        if not ok:  # golden section into the longer side
+            u = xi + _GOLD * (bi - xi) if bi - xi >= xi - ai else xi - _GOLD * (xi - ai)
+        # keep a trial at least z_tol / 2 from x, on the side the step was going,
+        # inside the bracket; a pushed trial cannot confirm a flat parabola
+        if abs(u - xi) < 0.5 * z_tol:
+            step = 0.5 * z_tol if u >= xi else -0.5 * z_tol
+            if not ai < xi + step < bi:  # that side is already shorter: the other
+                step = -step
+            u = min(max(xi + step, ai), bi)
+            flat = False
+    return u, flat
 
 
 @numba.njit(cache=True)
@@ -140,41 +137,71 @@ def _surrounded(fx, invalid, nx, ceiling, i):
 
 
 @numba.njit(cache=True)
-def _stoppable(fx, invalid, nx, ceiling, out):
+def _active(fx, invalid, valid_any, nx, ceiling, act):
+    """The nodes to search, into ``act``; returns their count: valid at every
+    check height and not stopped at the ceiling already."""
+    k = 0
     for i in range(fx.size):
-        out[i] = fx[i] >= ceiling and _surrounded(fx, invalid, nx, ceiling, i)
+        if invalid[i] or not valid_any[i]:
+            continue
+        if fx[i] >= ceiling and _surrounded(fx, invalid, nx, ceiling, i):
+            continue
+        act[k] = i
+        k += 1
+    return k
 
 
 @numba.njit(cache=True)
-def _update(act, x, fx, a, fa, b, fb, pts, fu, flat, rtol, z_tol, ceiling, invalid, nx, done):
-    """Shrink each active bracket with its trial (pts[m, 2], fu[m]); mark the
-    nodes that are finished: converged, undefined at the trial, or at the ceiling."""
-    for m in range(act.size):
-        i, u, f = act[m], pts[m, 2], fu[m]
-        if math.isnan(f):  # the model is undefined inside the band here
-            invalid[i] = True
-            done[m] = True
-            continue
-        old = fx[i]
-        face = x[i] == a[i] or x[i] == b[i]
-        if face and not f > old:
-            done[m] = True  # falls from the face into the band
-            continue
-        if f > old:
-            if u < x[i]:
-                b[i], fb[i] = x[i], old
-            else:
-                a[i], fa[i] = x[i], old
-            x[i], fx[i] = u, f
-        elif u < x[i]:
-            a[i], fa[i] = u, f
+def _update(u, f, flat, xi, fxi, ai, fai, bi, fbi, rtol, z_tol):
+    """The bracket (ai, bi) around xi shrunk with a trial (height u, value f not
+    NaN), and whether it has converged: short, or the flat parabola held, or the
+    face holds the maximum.  Returns (done, xi, fxi, ai, fai, bi, fbi)."""
+    face = xi == ai or xi == bi
+    if face and not f > fxi:
+        return True, xi, fxi, ai, fai, bi, fbi  # falls from the face into the band
+    old = fxi
+    if f > old:
+        if u < xi:
+            bi, fbi = xi, old
         else:
-            b[i], fb[i] = u, f
-        done[m] = (
-            b[i] - a[i] <= z_tol * (1 + 1e-9)  # the bracket is short
-            or (flat[m] and f - old <= rtol * old)  # the flat parabola held
-            or (fx[i] >= ceiling and _surrounded(fx, invalid, nx, ceiling, i))
-        )
+            ai, fai = xi, old
+        xi, fxi = u, f
+    elif u < xi:
+        ai, fai = u, f
+    else:
+        bi, fbi = u, f
+    done = bi - ai <= z_tol * (1 + 1e-9) or (flat and f - old <= rtol * old)
+    return done, xi, fxi, ai, fai, bi, fbi
+
+
+@numba.njit(cache=True)
+def _step(n_act, first, act, pts, fu, flat, x, fx, a, fa, b, fb, last, px, py,
+          z_tol, rtol, ceiling, invalid, nx):
+    """One step of the search over the active nodes ``act[:n_act]``: unless
+    ``first``, each takes its trial's value ``fu[m]`` (:func:`_update`) and
+    finishes when converged, undefined at the trial or at the ceiling; the
+    others get their next trial (:func:`_propose`) and are packed, in order,
+    into ``act``, ``pts`` and ``flat``.  Returns their count.  ``px``, ``py``
+    are the nodes' plan coordinates; ``nx`` nodes make a row of the grid."""
+    k = 0
+    for m in range(n_act):
+        i = act[m]
+        if not first:
+            f = fu[m]
+            if math.isnan(f):  # the model is undefined inside the band here
+                invalid[i] = True
+                continue
+            done, x[i], fx[i], a[i], fa[i], b[i], fb[i] = _update(
+                pts[m, 2], f, flat[m], x[i], fx[i], a[i], fa[i], b[i], fb[i], rtol, z_tol
+            )
+            if done or (fx[i] >= ceiling and _surrounded(fx, invalid, nx, ceiling, i)):
+                continue
+        u, fl = _propose(x[i], fx[i], a[i], fa[i], b[i], fb[i], last[i], z_tol, rtol)
+        last[i] = b[i] - a[i]
+        act[k], flat[k] = i, fl
+        pts[k, 0], pts[k, 1], pts[k, 2] = px[i], py[i], u
+        k += 1
+    return k
 
 
 def band_samples(scene, grid: PlanGrid) -> np.ndarray:
@@ -234,23 +261,17 @@ def band_max(
     invalid, valid_any = np.zeros(n, dtype=bool), np.zeros(n, dtype=bool)
     _brackets(mags, zs, x, fx, a, fa, b, fb, invalid, valid_any)
     if refine and zs.size > 1:
-        stop = np.empty(n, dtype=bool)
-        _stoppable(fx, invalid, nx, ceiling, stop)
-        act = np.flatnonzero(~invalid & valid_any & ~stop)
+        act = np.empty(n, dtype=np.int64)
+        k = _active(fx, invalid, valid_any, nx, ceiling, act)
         last = np.full(n, np.inf)
-        px, py = np.ascontiguousarray(grid.plan_points().T)
-        for _ in range(MAX_Z_STEPS):
-            if act.size == 0:
+        px, py = np.tile(grid.x, ny), np.repeat(grid.y, nx)
+        pts, flat, fu = np.empty((k, 3)), np.empty(k, dtype=np.bool_), np.empty(0)
+        for it in range(MAX_Z_STEPS + 1):
+            k = _step(k, it == 0, act, pts, fu, flat, x, fx, a, fa, b, fb, last, px, py,
+                      Z_TOL, RTOL, ceiling, invalid, nx)
+            if k == 0 or it == MAX_Z_STEPS:
                 break
-            pts = np.empty((act.size, 3))
-            flat = np.empty(act.size, dtype=bool)
-            _propose(act, x, fx, a, fa, b, fb, last, px, py, Z_TOL, RTOL, pts, flat)
-            fu = np.asarray(scene.magnitude(pts), dtype=np.float64)
-            done = np.empty(act.size, dtype=bool)
-            _update(
-                act, x, fx, a, fa, b, fb, pts, fu, flat, RTOL, Z_TOL, ceiling, invalid, nx, done
-            )
-            act = act[~done]
+            fu = np.asarray(scene.magnitude(pts[:k]), dtype=np.float64)
     bmax = np.where(valid_any, fx, np.nan)
     zmax = np.where(valid_any, x, np.nan)
     return FloorField(grid, bmax.reshape(ny, nx), invalid.reshape(ny, nx), zmax.reshape(ny, nx))
