@@ -2,6 +2,8 @@
 
 import numpy as np
 import pytest
+import shapely
+import shapely.affinity
 from scipy.constants import mu_0
 from scipy.optimize import brentq
 from shapely.geometry import Point, Polygon, box
@@ -143,15 +145,43 @@ def test_empty_region_and_bad_level():
 def test_clearance_of_rectangles_from_a_disc():
     from siting.analysis.contours import clearance
 
+    tol = 0.01
     disc = Point(0.0, 0.0).buffer(1.0, quad_segs=256)
     # distance from a unit disc to a rectangle: distance to its centre minus 1
-    assert clearance(box(2.0, -1.0, 3.0, 1.0), disc, spacing=0.05) == pytest.approx(1.0, abs=1e-4)
-    # overlap: the deepest rectangle point in the disc is its point nearest the centre
-    depth = clearance(box(0.4, -0.2, 3.0, 0.2), disc, spacing=0.05)
-    assert depth == pytest.approx(-0.6, abs=0.05 / (2 * np.sqrt(2)))
+    assert clearance(box(2.0, -1.0, 3.0, 1.0), disc) == pytest.approx(1.0, abs=1e-4)
+    # overlap: the deepest rectangle point in the disc is its point nearest the
+    # centre, (0.4, 0), at depth 1 - 0.4 (the polygonal disc is inside the circle by
+    # at most 1 - cos(pi / 1024) ~ 5e-6); never shallower, at most tol deeper
+    depth = -clearance(box(0.4, -0.2, 3.0, 0.2), disc, tol=tol)
+    assert 0.6 - 1e-5 <= depth <= 0.6 + tol
     # a rectangle covering the disc: depth = the disc's radius (its centre is inside)
-    assert clearance(box(-2, -2, 2, 2), disc, spacing=0.05) == pytest.approx(-1.0, abs=0.02)
-    assert clearance(box(0, 0, 1, 1), Polygon(), spacing=0.05) == np.inf
+    depth = -clearance(box(-2, -2, 2, 2), disc, tol=tol)
+    assert 1.0 - 1e-5 <= depth <= 1.0 + tol
+    assert clearance(box(0, 0, 1, 1), Polygon(), tol=tol) == np.inf
+
+
+def test_depth_bounds_a_dense_sampling_of_random_overlaps():
+    from siting.analysis.depth import depth
+
+    # reference: shapely's (GEOS) point-to-boundary distance over a dense lattice of
+    # points in the overlap, whose maximum is within step / sqrt(2) of the exact
+    # depth (the distance is 1-Lipschitz)
+    rng = np.random.default_rng(7)
+    tol, step = 0.01, 0.01
+    for _ in range(6):
+        blob = Point(rng.uniform(-0.5, 0.5, 2)).buffer(rng.uniform(1.0, 2.0), quad_segs=12)
+        region = blob.difference(Point(rng.uniform(-0.3, 0.3, 2)).buffer(0.3))  # with a hole
+        room = shapely.affinity.rotate(box(0, 0, *rng.uniform(0.5, 2.5, 2)), rng.uniform(0, 90))
+        room = shapely.affinity.translate(room, *rng.uniform(-1.5, 0.5, 2))
+        inter = room.intersection(region)
+        if inter.area < 1e-3:
+            continue
+        x0, y0, x1, y1 = inter.bounds
+        xx, yy = np.meshgrid(np.arange(x0, x1, step), np.arange(y0, y1, step))
+        keep = shapely.contains_xy(inter, xx, yy)
+        ref = shapely.distance(region.boundary, shapely.points(xx[keep], yy[keep])).max()
+        got = depth(room, region, tol=tol)
+        assert ref - 1e-9 <= got <= ref + step / np.sqrt(2) + tol
 
 
 def _line_miss(ff, level, radius):

@@ -57,7 +57,7 @@ from shapely.geometry import MultiPolygon, Polygon
 
 from siting.analysis.band import band_max, band_samples
 from siting.analysis.contours import LINE_TOL, clearance, level_region, line_error
-from siting.analysis.grid import FloorField, floor_grid, refined
+from siting.analysis.grid import FloorField, floor_grid, refined, room_polygons
 from siting.analysis.roommax import room_maxima
 from siting.errors import SitingError
 from siting.site.model import Equipment, Room, Site
@@ -124,7 +124,7 @@ def _room_result(site, room, poly, mx, at, nan_seen, floor_field, region):
         status = "info"
     else:
         status = "fail" if (nan_seen or not mx < limit) else "pass"
-        margin = clearance(poly, region, spacing=floor_field.grid.spacing)
+        margin = clearance(poly, region)
         area = float(poly.intersection(region).area) if margin < 0 else 0.0
         if (status == "fail") != (margin < 0):
             margin = 0.0
@@ -143,8 +143,8 @@ def _room_result(site, room, poly, mx, at, nan_seen, floor_field, region):
 
 
 def _outlines(rooms):
-    polys = np.array([Polygon(r.outline) for r in rooms], dtype=object)
-    bad = ~shapely.is_valid(polys) if len(polys) else np.zeros(0, dtype=bool)
+    polys = room_polygons([r.outline for r in rooms])
+    bad = ~shapely.is_valid(polys)
     # a self-intersecting outline is checked over its convex hull, which contains
     # it: the maximum found is then an upper bound (on the safe side)
     for i in np.flatnonzero(bad):
@@ -236,10 +236,8 @@ def access_boundary(site: Site, floor_field: FloorField, *, region=None) -> Acce
     limit = float(site.info.access_limit)
     if region is None:
         region = level_region(floor_field, limit)
-    rooms = [Polygon(r.outline) for r in site.rooms if r.floor == fid and r.zone in (3, 4)]
-    covered = (
-        shapely.union_all(shapely.make_valid(np.array(rooms, dtype=object))) if rooms else Polygon()
-    )
+    rooms = room_polygons([r.outline for r in site.rooms if r.floor == fid and r.zone in (3, 4)])
+    covered = shapely.union_all(shapely.make_valid(rooms)) if len(rooms) else Polygon()
     rest = region.difference(covered) if not region.is_empty else MultiPolygon()
     parts = [p for p in shapely.get_parts(rest) if isinstance(p, Polygon) and p.area > 0]
     uncovered = MultiPolygon(parts)

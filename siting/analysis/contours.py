@@ -29,9 +29,9 @@ import numba
 import numpy as np
 import shapely
 from contourpy import FillType, LineType
-from scipy.spatial import cKDTree
 from shapely.geometry import MultiPolygon, Polygon
 
+from siting.analysis.depth import depth
 from siting.analysis.grid import FloorField
 
 #: Position error allowed to a drawn isogauss line by the automatic spacing [m].
@@ -163,7 +163,7 @@ def reaches_border(floor_field: FloorField, level: float) -> bool:
     return bool(np.any(edge >= lev))
 
 
-def clearance(polygon, region, *, spacing: float) -> float:
+def clearance(polygon, region, *, tol: float = LINE_TOL) -> float:
     """Signed clearance of a plan polygon from a region [m].
 
     Parameters
@@ -172,43 +172,25 @@ def clearance(polygon, region, *, spacing: float) -> float:
         E.g. a room's outline.
     region : shapely geometry
         E.g. :func:`level_region` of the room's limit.
-    spacing : float
-        Sampling step [m] for the depth (below).
+    tol : float
+        Accuracy of the depth (below) [m].
 
     Returns
     -------
     float
         ``+inf`` for an empty region; ``distance(polygon, region) >= 0`` when
-        they do not overlap; otherwise ``-max over q in polygon n region of
-        distance(q, boundary of region)``: the depth of the polygon's deepest
-        point inside the region, i.e. how far the region's line would have to
-        recede for the polygon to be clear.  The depth is sampled on a grid
-        of step ``h = max(spacing / 2, sqrt(overlap area) / 60)`` (at most
-        about 3600 samples) plus the vertices of the overlap, each measured to
-        the nearest point of the region's line resampled at ``h`` (a k-d tree
-        query).  The distance is 1-Lipschitz and the resampling adds at most
-        ``h / 2``, so the error is below ``h (1 / sqrt 2 + 1 / 2)``.  Where the
-        region is closed along a grid border, that border counts as its line.
+        they do not overlap in a positive area; otherwise ``-max over q in
+        polygon n region of distance(q, boundary of region)``: the depth of
+        the polygon's deepest point inside the region, i.e. how far the
+        region's line would have to recede for the polygon to be clear, by
+        :func:`siting.analysis.depth.depth` (never shallower than the exact
+        depth, at most ``tol`` deeper).  Where the region is closed along a
+        grid border, that border counts as its line.
     """
     if region.is_empty:
         return math.inf
-    inter = polygon.intersection(region)
-    if inter.area <= 0.0:
-        return float(polygon.distance(region))
-    x0, y0, x1, y1 = inter.bounds
-    h = max(float(spacing) / 2, math.sqrt(inter.area) / 60)
-    xx, yy = np.meshgrid(np.arange(x0, x1 + h, h), np.arange(y0, y1 + h, h))
-    inside = shapely.intersects_xy(inter, xx, yy)
-    pts = [np.column_stack([xx[inside], yy[inside]])]
-    pts += [
-        np.asarray(ring.coords)
-        for poly in shapely.get_parts(inter)
-        if isinstance(poly, Polygon)
-        for ring in (poly.exterior, *poly.interiors)
-    ]
-    line = shapely.get_coordinates(shapely.segmentize(region.boundary, h))
-    depth, _ = cKDTree(line).query(np.concatenate(pts))
-    return -float(np.max(depth))
+    d = depth(polygon, region, tol=tol)
+    return -d if d > 0 else float(polygon.distance(region))
 
 
 def line_error(floor_field: FloorField, levels) -> float:
