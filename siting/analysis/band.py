@@ -55,25 +55,26 @@ def _brackets(mags, zs, bx, bf, lo, lo_f, hi, hi_f, invalid, valid_any):
     """Best check height per node and its neighbours as the search bracket.
 
     ``mags`` (k, n); fills ``bx``/``bf`` (best height and value, the lowest
-    height winning a tie), ``lo``/``hi`` and their values (the neighbouring
-    heights, or the best one itself at a band face), and the masks of nodes
-    undefined at some height and of nodes valid at some height."""
+    height winning a tie; ``bf`` -inf where no height is valid), ``lo``/``hi``
+    and their values (the neighbouring heights, or the best one itself at a
+    band face), and the masks of nodes undefined at some height (``invalid``,
+    or-ed into) and of nodes valid at some height.  Row by row, so that every
+    pass reads memory in order."""
     k, n = mags.shape
+    best = np.zeros(n, dtype=np.int64)
+    bf[:] = -np.inf
+    for j in range(k):
+        row = mags[j]
+        for i in range(n):
+            v = row[i]
+            invalid[i] |= v != v  # NaN: undefined here
+            if v > bf[i]:
+                bf[i], best[i] = v, j
     for i in range(n):
-        best = -1
-        for j in range(k):
-            v = mags[j, i]
-            if math.isnan(v):
-                invalid[i] = True
-            else:
-                valid_any[i] = True
-                if best < 0 or v > mags[best, i]:
-                    best = j
-        if best < 0:
-            bf[i] = -np.inf
-            continue
-        jl, jh = max(best - 1, 0), min(best + 1, k - 1)
-        bx[i], bf[i] = zs[best], mags[best, i]
+        valid_any[i] = bf[i] > -np.inf
+        jb = best[i]
+        jl, jh = max(jb - 1, 0), min(jb + 1, k - 1)
+        bx[i] = zs[jb]
         lo[i], lo_f[i] = zs[jl], mags[jl, i]
         hi[i], hi_f[i] = zs[jh], mags[jh, i]
 
@@ -256,7 +257,7 @@ def band_max(
     n = ny * nx
     zs = grid.heights
     mags = band_samples(scene, grid) if samples is None else samples
-    x, fx = np.full(n, np.nan), np.empty(n)
+    x, fx = np.empty(n), np.empty(n)
     a, fa, b, fb = np.empty(n), np.empty(n), np.empty(n), np.empty(n)
     invalid, valid_any = np.zeros(n, dtype=bool), np.zeros(n, dtype=bool)
     _brackets(mags, zs, x, fx, a, fa, b, fb, invalid, valid_any)
