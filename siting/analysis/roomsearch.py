@@ -101,7 +101,7 @@ class Outlines:
         return out
 
 
-@numba.njit(cache=True)
+@numba.njit(cache=True, inline="always")
 def _outline_point(start, vec, s0, first, last, perim, r, s):
     g = s - perim[r] * math.floor(s / perim[r]) + s0[first[r]]
     lo, hi = first[r], last[r]
@@ -122,7 +122,7 @@ def _outline_points(start, vec, s0, first, last, perim, room, s, out):
         out[i, 0], out[i, 1] = _outline_point(start, vec, s0, first, last, perim, room[i], s[i])
 
 
-@numba.njit(cache=True)
+@numba.njit(cache=True, inline="always")
 def _inside(start, vec, first, last, r, px, py):
     """Even-odd crossing test of (px, py) against room r's outline."""
     c = False
@@ -135,7 +135,7 @@ def _inside(start, vec, first, last, r, px, py):
     return c
 
 
-@numba.njit(cache=True)
+@numba.njit(cache=True, inline="always")
 def _first_exit(start, vec, first, last, r, x, y, dx, dy):
     """Fraction of the move (x, y) -> (x + dx, y + dy) before it first crosses
     room r's outline; crossings at the move's own start (x on the outline) do
@@ -154,23 +154,23 @@ def _first_exit(start, vec, first, last, r, x, y, dx, dy):
     return tmin
 
 
-@numba.njit(cache=True)
-def _place(outl, face, room, face_z, i, u0, u1, xyz):
-    """Absolute point of start i at coordinates (u0, u1); returns feasibility."""
+@numba.njit(cache=True, inline="always")
+def _place(outl, is_face, r, z_face, u0, u1):
+    """Absolute point (x, y, z) of a start of room r at coordinates (u0, u1), and
+    its feasibility (a face point must lie inside the outline)."""
     start, vec, s0, first, last, perim = outl
-    r = room[i]
-    if face[i]:
-        xyz[0], xyz[1], xyz[2] = u0, u1, face_z[i]
-        return _inside(start, vec, first, last, r, u0, u1)
-    xyz[0], xyz[1] = _outline_point(start, vec, s0, first, last, perim, r, u0)
-    xyz[2] = u1
-    return True
+    if is_face:
+        return _inside(start, vec, first, last, r, u0, u1), u0, u1, z_face
+    px, py = _outline_point(start, vec, s0, first, last, perim, r, u0)
+    return True, px, py, u1
 
 
 @numba.njit(cache=True)
 def _points(outl, face, room, face_z, u, xyz, ok):
     for i in range(u.shape[0]):
-        ok[i] = _place(outl, face, room, face_z, i, u[i, 0], u[i, 1], xyz[i])
+        ok[i], xyz[i, 0], xyz[i, 1], xyz[i, 2] = _place(
+            outl, face[i], room[i], face_z[i], u[i, 0], u[i, 1]
+        )
 
 
 @numba.njit(cache=True)
@@ -195,7 +195,9 @@ def _poll(outl, face, room, face_z, x, step, base, lo, hi, guess, act, dirs, tri
                     t0, t1 = x[i, 0] + f * dx, x[i, 1] + f * dy
             trial[a, j, 0], trial[a, j, 1] = t0, t1
             moved = t0 != x[i, 0] or t1 != x[i, 1]
-            ok = _place(outl, face, room, face_z, i, t0, t1, xyz[a, j])
+            ok, xyz[a, j, 0], xyz[a, j, 1], xyz[a, j, 2] = _place(
+                outl, face[i], room[i], face_z[i], t0, t1
+            )
             use[a, j] = moved and ok
 
 
