@@ -178,19 +178,30 @@ class FloorField:
         undefined : ndarray of bool, shape (n,)
             True where any node of the point's cell is invalid.
         """
-        xy = np.asarray(xy, dtype=np.float64).reshape(-1, 2)
+        xy = np.ascontiguousarray(xy, dtype=np.float64).reshape(-1, 2)
+        n = len(xy)
+        val, z, undefined = np.empty(n), np.empty(n), np.empty(n, dtype=np.bool_)
         g = self.grid
-        i = np.clip(np.searchsorted(g.x, xy[:, 0]) - 1, 0, g.x.size - 2)
-        j = np.clip(np.searchsorted(g.y, xy[:, 1]) - 1, 0, g.y.size - 2)
-        tx = np.clip((xy[:, 0] - g.x[i]) / (g.x[i + 1] - g.x[i]), 0.0, 1.0)
-        ty = np.clip((xy[:, 1] - g.y[j]) / (g.y[j + 1] - g.y[j]), 0.0, 1.0)
-        b, bad = self.bmax, self.invalid
-        val = (1 - ty) * ((1 - tx) * b[j, i] + tx * b[j, i + 1]) + ty * (
+        _bilinear(g.x, g.y, self.bmax, self.invalid, self.zmax, xy, val, z, undefined)
+        return val, z, undefined
+
+
+@numba.njit(cache=True)
+def _bilinear(x, y, b, bad, zmax, xy, val, z, undefined):
+    """:meth:`FloorField.interpolate` point by point, into val, z, undefined."""
+    for k in range(xy.shape[0]):
+        i = min(max(np.searchsorted(x, xy[k, 0]) - 1, 0), x.size - 2)
+        j = min(max(np.searchsorted(y, xy[k, 1]) - 1, 0), y.size - 2)
+        tx = min(max((xy[k, 0] - x[i]) / (x[i + 1] - x[i]), 0.0), 1.0)
+        ty = min(max((xy[k, 1] - y[j]) / (y[j + 1] - y[j]), 0.0), 1.0)
+        v = (1 - ty) * ((1 - tx) * b[j, i] + tx * b[j, i + 1]) + ty * (
             (1 - tx) * b[j + 1, i] + tx * b[j + 1, i + 1]
         )
-        undefined = bad[j, i] | bad[j, i + 1] | bad[j + 1, i] | bad[j + 1, i + 1]
-        z = self.zmax[j + np.rint(ty).astype(int), i + np.rint(tx).astype(int)]
-        return val, z, undefined | np.isnan(val)
+        val[k] = v
+        undefined[k] = (
+            bad[j, i] or bad[j, i + 1] or bad[j + 1, i] or bad[j + 1, i + 1] or math.isnan(v)
+        )
+        z[k] = zmax[j + int(np.rint(ty)), i + int(np.rint(tx))]
 
 
 def _outline_bounds(outlines) -> np.ndarray:
