@@ -142,6 +142,28 @@ def test_empty_region_and_bad_level():
         level_lines(ff, np.nan)
 
 
+def test_region_contoured_on_its_crop_is_the_whole_grids():
+    import contourpy
+
+    from siting.analysis.contours import contour_values
+
+    # reference: contourpy's filled contours of the whole grid, as shapely polygons
+    ring = synthetic(lambda x, y: 1.0 + 0.5 * np.cos(np.hypot(x - 0.3, y) * 2.0))
+    for ff in (equator_field(0.1), ring):
+        g = ff.grid
+        gen = contourpy.contour_generator(g.x, g.y, contour_values(ff), fill_type="OuterOffset")
+        for level in (LEVEL, 4 * LEVEL, 1.2, 1.45):
+            pts, offs = gen.filled(level, np.inf)
+            polys = []
+            for p, o in zip(pts, offs, strict=True):
+                rings = [p[a:b] for a, b in zip(o[:-1], o[1:], strict=True)]
+                polys.append(Polygon(rings[0], rings[1:]))
+            ref = shapely.union_all(polys)
+            got = level_region(ff, level)
+            assert got.area == pytest.approx(ref.area, rel=1e-12, abs=1e-12)
+            assert got.symmetric_difference(ref).area <= 1e-9 * max(ref.area, 1.0)
+
+
 def test_clearance_of_rectangles_from_a_disc():
     from siting.analysis.contours import clearance
 

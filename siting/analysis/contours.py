@@ -54,25 +54,45 @@ def contour_values(floor_field: FloorField) -> np.ndarray:
     return z
 
 
-#: One contour generator per field map, reused for all its levels (contourpy's
-#: set-up costs more than a level's contouring on a floor-sized grid).
+#: Contour generators per field map and crop (contourpy's set-up costs more than
+#: a level's contouring on a floor-sized grid), reused for all their levels.
 _GENERATORS: weakref.WeakKeyDictionary = weakref.WeakKeyDictionary()
 
 
-def _generator(floor_field: FloorField):
-    gen = _GENERATORS.get(floor_field)
+def _generator(floor_field: FloorField, crop: tuple[int, int, int, int] | None = None):
+    """A contour generator for the field map, or for the nodes
+    ``[j0:j1, i0:i1]`` of ``crop = (j0, j1, i0, i1)``."""
+    cache = _GENERATORS.setdefault(floor_field, {})
+    gen = cache.get(crop)
     if gen is None:
         g = floor_field.grid
+        j0, j1, i0, i1 = crop or (0, g.y.size, 0, g.x.size)
         gen = contourpy.contour_generator(
-            g.x,
-            g.y,
-            contour_values(floor_field),
+            g.x[i0:i1],
+            g.y[j0:j1],
+            contour_values(floor_field)[j0:j1, i0:i1],
             name="serial",
             fill_type=FillType.OuterOffset,
             line_type=LineType.Separate,
         )
-        _GENERATORS[floor_field] = gen
+        cache[crop] = gen
     return gen
+
+
+@numba.njit(cache=True)
+def _level_crop(bmax, invalid, level):
+    """(j0, j1, i0, i1): the nodes at or above ``level`` (or invalid) with one
+    more node on every side, clipped to the grid; j0 = -1 when there are none."""
+    ny, nx = bmax.shape
+    j0, j1, i0, i1 = ny, -1, nx, -1
+    for j in range(ny):
+        for i in range(nx):
+            if invalid[j, i] or bmax[j, i] >= level:
+                j0, j1 = min(j0, j), max(j1, j)
+                i0, i1 = min(i0, i), max(i1, i)
+    if j1 < 0:
+        return -1, -1, -1, -1
+    return max(j0 - 1, 0), min(j1 + 2, ny), max(i0 - 1, 0), min(i1 + 2, nx)
 
 
 def _as_multipolygon(geom) -> MultiPolygon:
@@ -108,9 +128,12 @@ def level_region(floor_field: FloorField, level: float) -> MultiPolygon:
         border where the region reaches it (module docstring).
     """
     lev = _check_level(level)
-    if not np.any(floor_field.invalid) and not np.nanmax(floor_field.bmax, initial=0.0) >= lev:
+    crop = _level_crop(floor_field.bmax, floor_field.invalid, lev)
+    if crop[0] < 0:
         return MultiPolygon()  # nothing reaches the level: no contouring needed
-    points, offsets = _generator(floor_field).filled(lev, np.inf)
+    # contoured over the nodes that reach the level and one more all round: every
+    # cell the line crosses is inside, and the polygons are those of the full grid
+    points, offsets = _generator(floor_field, crop).filled(lev, np.inf)
     polys = []
     for pts, off in zip(points, offsets, strict=True):
         rings = [pts[off[i] : off[i + 1]] for i in range(len(off) - 1)]
