@@ -10,7 +10,8 @@ proper), plus grid points per second: medians over several checks, since a
 check takes tens of milliseconds and the machine's noise is of that order.
 Building the sources (which fits each fringe model to its extents and solves
 any steel plates) is timed on its own, before the check.  The field
-evaluation should be the bulk of the check.
+evaluation should be the bulk of the check.  The allocator is set up as the
+command line sets it (:func:`siting.allocator.keep_freed_memory`).
 """
 
 from __future__ import annotations
@@ -23,6 +24,7 @@ from pathlib import Path
 import numpy as np
 
 import siting.analysis.checks as checks_mod
+from siting.allocator import keep_freed_memory
 import siting.analysis.contours as contours_mod
 from siting.site.build import build_scene, build_sources
 from siting.site.loader import load_site
@@ -106,6 +108,7 @@ def main() -> None:
     parser.add_argument("--spacing", type=float, default=None, help="plan grid spacing [m]")
     parser.add_argument("--repeat", type=int, default=7, help="checks per example (medians)")
     args = parser.parse_args()
+    keep_freed_memory()  # as the command line does
     # warm the compiled kernels (their one-thread and parallel variants) so compile
     # time is not counted
     for path in sorted(ROOMS.glob("*.toml")):

@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import typer
 
+from siting.allocator import keep_freed_memory
 from siting.cli import cad, commands, shield
 
 app = typer.Typer(
@@ -21,4 +22,5 @@ shield.register(app)
 
 
 def main() -> None:  # console-script entry point
+    keep_freed_memory()  # a process of our own: reuse freed memory (siting.allocator)
     app()
