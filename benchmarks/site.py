@@ -24,8 +24,8 @@ from pathlib import Path
 import numpy as np
 
 import siting.analysis.checks as checks_mod
-from siting.allocator import keep_freed_memory
 import siting.analysis.contours as contours_mod
+from siting.allocator import keep_freed_memory
 from siting.site.build import build_scene, build_sources
 from siting.site.loader import load_site
 
