@@ -324,8 +324,11 @@ def check_site(
             continue
         fields[fl.id] = ff
         report("field", i, n)
-        regions = {access_limit: level_region(ff, access_limit)}
-        floors.append((i, [r for r in site.rooms if r.floor == fl.id], ff, regions))
+        floor_rooms = [r for r in site.rooms if r.floor == fl.id]
+        limits = {site.room_limit(r) for r in floor_rooms} - {None}
+        # lowest level first: its contour generator serves the higher ones
+        regions = {lev: level_region(ff, lev) for lev in sorted({access_limit, *limits})}
+        floors.append((i, floor_rooms, ff, regions))
     results = iter(_check_rooms(site, scene, [f[1:] for f in floors]))
     rooms, access = [], []
     for i, floor_rooms, ff, regions in floors:

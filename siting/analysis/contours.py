@@ -61,22 +61,30 @@ _GENERATORS: weakref.WeakKeyDictionary = weakref.WeakKeyDictionary()
 
 def _generator(floor_field: FloorField, crop: tuple[int, int, int, int] | None = None):
     """A contour generator for the field map, or for the nodes
-    ``[j0:j1, i0:i1]`` of ``crop = (j0, j1, i0, i1)``."""
+    ``[j0:j1, i0:i1]`` of ``crop = (j0, j1, i0, i1)``: one made for a crop that
+    contains it is reused (contouring a level over more nodes than it needs
+    gives the same lines)."""
     cache = _GENERATORS.setdefault(floor_field, {})
-    gen = cache.get(crop)
-    if gen is None:
-        g = floor_field.grid
-        j0, j1, i0, i1 = crop or (0, g.y.size, 0, g.x.size)
-        gen = contourpy.contour_generator(
-            g.x[i0:i1],
-            g.y[j0:j1],
-            contour_values(floor_field)[j0:j1, i0:i1],
-            name="serial",
-            fill_type=FillType.OuterOffset,
-            line_type=LineType.Separate,
-        )
-        cache[crop] = gen
+    for key, gen in cache.items():
+        if key is None or (crop is not None and _contains(key, crop)):
+            return gen
+    g = floor_field.grid
+    j0, j1, i0, i1 = crop or (0, g.y.size, 0, g.x.size)
+    gen = contourpy.contour_generator(
+        g.x[i0:i1],
+        g.y[j0:j1],
+        contour_values(floor_field)[j0:j1, i0:i1],
+        name="serial",
+        fill_type=FillType.OuterOffset,
+        line_type=LineType.Separate,
+    )
+    cache[crop] = gen
     return gen
+
+
+def _contains(outer, inner) -> bool:
+    """Whether crop ``outer`` holds every node of crop ``inner``."""
+    return outer[0] <= inner[0] and inner[1] <= outer[1] and outer[2] <= inner[2] and inner[3] <= outer[3]
 
 
 @numba.njit(cache=True)
