@@ -84,7 +84,8 @@ def _generator(floor_field: FloorField, crop: tuple[int, int, int, int] | None =
 
 def _contains(outer, inner) -> bool:
     """Whether crop ``outer`` holds every node of crop ``inner``."""
-    return outer[0] <= inner[0] and inner[1] <= outer[1] and outer[2] <= inner[2] and inner[3] <= outer[3]
+    (a0, a1, b0, b1), (j0, j1, i0, i1) = outer, inner
+    return a0 <= j0 and j1 <= a1 and b0 <= i0 and i1 <= b1
 
 
 @numba.njit(cache=True)
