@@ -138,9 +138,11 @@ def _surrounded(fx, invalid, nx, ceiling, i):
 
 
 @numba.njit(cache=True)
-def _active(fx, invalid, valid_any, nx, ceiling, act):
-    """The nodes to search, into ``act``; returns their count: valid at every
-    check height and not stopped at the ceiling already."""
+def _active(x, fx, a, fa, b, fb, invalid, valid_any, nx, ceiling, act, state):
+    """The nodes to search, into ``act``, with their search state (x, f(x), a,
+    f(a), b, f(b), previous bracket length) into the rows of ``state``; returns
+    their count: nodes valid at every check height and not stopped at the
+    ceiling already."""
     k = 0
     for i in range(fx.size):
         if invalid[i] or not valid_any[i]:
@@ -148,6 +150,8 @@ def _active(fx, invalid, valid_any, nx, ceiling, act):
         if fx[i] >= ceiling and _surrounded(fx, invalid, nx, ceiling, i):
             continue
         act[k] = i
+        state[k, 0], state[k, 1], state[k, 2], state[k, 3] = x[i], fx[i], a[i], fa[i]
+        state[k, 4], state[k, 5], state[k, 6] = b[i], fb[i], np.inf
         k += 1
     return k
 
@@ -176,29 +180,36 @@ def _update(u, f, flat, xi, fxi, ai, fai, bi, fbi, rtol, z_tol):
 
 
 @numba.njit(cache=True)
-def _step(n_act, first, act, pts, fu, flat, x, fx, a, fa, b, fb, last, px, py,
-          z_tol, rtol, ceiling, invalid, nx):
-    """One step of the search over the active nodes ``act[:n_act]``: unless
-    ``first``, each takes its trial's value ``fu[m]`` (:func:`_update`) and
+def _step(n_act, first, act, state, pts, fu, flat, x, fx, px, py, z_tol, rtol, ceiling, invalid, nx):
+    """One step of the search over the active nodes ``act[:n_act]`` (their
+    state in the rows of ``state``, as :func:`_active` lays it out): unless
+    ``first``, each takes its trial's value ``fu[m]`` (:func:`_update`; the
+    node's best height and value are written through to ``x`` and ``fx``) and
     finishes when converged, undefined at the trial or at the ceiling; the
     others get their next trial (:func:`_propose`) and are packed, in order,
-    into ``act``, ``pts`` and ``flat``.  Returns their count.  ``px``, ``py``
-    are the nodes' plan coordinates; ``nx`` nodes make a row of the grid."""
+    into ``act``, ``state``, ``pts`` and ``flat``.  Returns their count.
+    ``px``, ``py`` are the nodes' plan coordinates; ``nx`` nodes make a row of
+    the grid.  (The state travels with the packed list so that every pass
+    reads and writes it in order.)"""
     k = 0
     for m in range(n_act):
         i = act[m]
+        xi, fxi, ai, fai = state[m, 0], state[m, 1], state[m, 2], state[m, 3]
+        bi, fbi, last = state[m, 4], state[m, 5], state[m, 6]
         if not first:
             f = fu[m]
             if math.isnan(f):  # the model is undefined inside the band here
                 invalid[i] = True
                 continue
-            done, x[i], fx[i], a[i], fa[i], b[i], fb[i] = _update(
-                pts[m, 2], f, flat[m], x[i], fx[i], a[i], fa[i], b[i], fb[i], rtol, z_tol
+            done, xi, fxi, ai, fai, bi, fbi = _update(
+                pts[m, 2], f, flat[m], xi, fxi, ai, fai, bi, fbi, rtol, z_tol
             )
-            if done or (fx[i] >= ceiling and _surrounded(fx, invalid, nx, ceiling, i)):
+            x[i], fx[i] = xi, fxi
+            if done or (fxi >= ceiling and _surrounded(fx, invalid, nx, ceiling, i)):
                 continue
-        u, fl = _propose(x[i], fx[i], a[i], fa[i], b[i], fb[i], last[i], z_tol, rtol)
-        last[i] = b[i] - a[i]
+        u, fl = _propose(xi, fxi, ai, fai, bi, fbi, last, z_tol, rtol)
+        state[k, 0], state[k, 1], state[k, 2], state[k, 3] = xi, fxi, ai, fai
+        state[k, 4], state[k, 5], state[k, 6] = bi, fbi, bi - ai
         act[k], flat[k] = i, fl
         pts[k, 0], pts[k, 1], pts[k, 2] = px[i], py[i], u
         k += 1
@@ -262,13 +273,12 @@ def band_max(
     invalid, valid_any = np.zeros(n, dtype=bool), np.zeros(n, dtype=bool)
     _brackets(mags, zs, x, fx, a, fa, b, fb, invalid, valid_any)
     if refine and zs.size > 1:
-        act = np.empty(n, dtype=np.int64)
-        k = _active(fx, invalid, valid_any, nx, ceiling, act)
-        last = np.full(n, np.inf)
+        act, state = np.empty(n, dtype=np.int64), np.empty((n, 7))
+        k = _active(x, fx, a, fa, b, fb, invalid, valid_any, nx, ceiling, act, state)
         px, py = np.tile(grid.x, ny), np.repeat(grid.y, nx)
         pts, flat, fu = np.empty((k, 3)), np.empty(k, dtype=np.bool_), np.empty(0)
         for it in range(MAX_Z_STEPS + 1):
-            k = _step(k, it == 0, act, pts, fu, flat, x, fx, a, fa, b, fb, last, px, py,
+            k = _step(k, it == 0, act, state, pts, fu, flat, x, fx, px, py,
                       Z_TOL, RTOL, ceiling, invalid, nx)
             if k == 0 or it == MAX_Z_STEPS:
                 break
