@@ -180,7 +180,9 @@ def _update(u, f, flat, xi, fxi, ai, fai, bi, fbi, rtol, z_tol):
 
 
 @numba.njit(cache=True)
-def _step(n_act, first, act, state, pts, fu, flat, x, fx, px, py, z_tol, rtol, ceiling, invalid, nx):
+def _step(
+    n_act, first, act, state, pts, fu, flat, x, fx, px, py, z_tol, rtol, ceiling, invalid, nx
+):
     """One step of the search over the active nodes ``act[:n_act]`` (their
     state in the rows of ``state``, as :func:`_active` lays it out): unless
     ``first``, each takes its trial's value ``fu[m]`` (:func:`_update`; the
