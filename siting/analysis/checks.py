@@ -142,8 +142,10 @@ def _room_result(site, room, poly, mx, at, nan_seen, floor_field, region):
     )
 
 
-def _outlines(rooms):
-    polys = room_polygons([r.outline for r in rooms])
+def _outlines(rooms, polys=None):
+    """The rooms' polygons for the room search (``polys``: :func:`room_polygons`
+    of them, if already built), self-intersecting ones replaced (below)."""
+    polys = room_polygons([r.outline for r in rooms]) if polys is None else polys.copy()
     bad = ~shapely.is_valid(polys)
     # a self-intersecting outline is checked over its convex hull, which contains
     # it: the maximum found is then an upper bound (on the safe side)
@@ -154,10 +156,11 @@ def _outlines(rooms):
 
 
 def _check_rooms(site, scene, floors):
-    """Room results for ``floors``: a sequence of (rooms, floor_field, regions),
-    ``regions`` a dict level -> :func:`level_region`, filled as needed.  One
-    search (:func:`room_maxima`) covers the rooms of every floor."""
-    floors = [(rooms, ff, regions, _outlines(rooms)) for rooms, ff, regions in floors]
+    """Room results for ``floors``: a sequence of (rooms, floor_field, regions,
+    polygons), ``regions`` a dict level -> :func:`level_region`, filled as
+    needed, ``polygons`` the rooms' :func:`room_polygons` or None.  One search
+    (:func:`room_maxima`) covers the rooms of every floor."""
+    floors = [(rooms, ff, regions, _outlines(rooms, p)) for rooms, ff, regions, p in floors]
     mx, at, nan_seen = room_maxima(scene, [(polys, ff) for _, ff, _, polys in floors])
     out, k = [], 0
     for rooms, ff, regions, polys in floors:
@@ -196,7 +199,7 @@ def check_room(site: Site, scene, room: Room, floor_field: FloorField) -> RoomRe
             f"room {room.id!r} is on floor {room.floor!r}, "
             f"the field map on {floor_field.grid.floor!r}"
         )
-    return _check_rooms(site, scene, [([room], floor_field, {})])[0]
+    return _check_rooms(site, scene, [([room], floor_field, {}, None)])[0]
 
 
 def _check_equipment_all(scene, items):
@@ -215,7 +218,9 @@ def check_equipment(site: Site, scene, equipment: Equipment) -> EquipmentResult:
     return _check_equipment_all(scene, [equipment])[0]
 
 
-def access_boundary(site: Site, floor_field: FloorField, *, region=None) -> AccessResult:
+def access_boundary(
+    site: Site, floor_field: FloorField, *, region=None, polygons=None
+) -> AccessResult:
     """Whether the zone 3 and 4 rooms of the floor contain the access-limit region.
 
     Parameters
@@ -226,6 +231,9 @@ def access_boundary(site: Site, floor_field: FloorField, *, region=None) -> Acce
         Band maximum on the floor to check.
     region : shapely geometry, optional
         :func:`level_region` at ``site.info.access_limit``, if already computed.
+    polygons : array of shapely Polygons, optional
+        :func:`room_polygons` of the floor's rooms (in the site's order), if
+        already built.
 
     Returns
     -------
@@ -236,7 +244,10 @@ def access_boundary(site: Site, floor_field: FloorField, *, region=None) -> Acce
     limit = float(site.info.access_limit)
     if region is None:
         region = level_region(floor_field, limit)
-    rooms = room_polygons([r.outline for r in site.rooms if r.floor == fid and r.zone in (3, 4)])
+    floor_rooms = [r for r in site.rooms if r.floor == fid]
+    if polygons is None:
+        polygons = room_polygons([r.outline for r in floor_rooms])
+    rooms = polygons[np.array([r.zone in (3, 4) for r in floor_rooms], dtype=bool)]
     covered = shapely.union_all(shapely.make_valid(rooms)) if len(rooms) else Polygon()
     rest = region.difference(covered) if not region.is_empty else MultiPolygon()
     parts = [p for p in shapely.get_parts(rest) if isinstance(p, Polygon) and p.area > 0]
@@ -259,7 +270,9 @@ def line_levels(site: Site, floor_id: str) -> tuple[float, ...]:
     return tuple(sorted(float(v) for v in levels))
 
 
-def map_floor(site: Site, scene, floor_id: str, *, spacing: float | None = None) -> FloorField:
+def map_floor(
+    site: Site, scene, floor_id: str, *, spacing: float | None = None, polygons=None
+) -> FloorField:
     """The band maximum on a floor's grid (:func:`siting.analysis.band.band_max`,
     searched between the check heights up to the highest of :func:`line_levels`).
 
@@ -269,8 +282,9 @@ def map_floor(site: Site, scene, floor_id: str, *, spacing: float | None = None)
     :func:`line_levels` is off by more than ``LINE_TOL`` there, the floor is
     gridded again at ``h sqrt(LINE_TOL / error)`` (the error falls as h^2) by
     :func:`siting.analysis.grid.refined`, and the finer map is returned.
+    ``polygons``: :func:`room_polygons` of the floor's rooms, if already built.
     """
-    grid = floor_grid(site, floor_id, spacing=spacing)
+    grid = floor_grid(site, floor_id, spacing=spacing, polygons=polygons)
     levels = line_levels(site, floor_id)
     samples = band_samples(scene, grid)
     if spacing is None:
@@ -317,9 +331,12 @@ def check_site(
     access_limit = float(site.info.access_limit)
     fields, floors = {}, []
     n = len(site.floors)
+    every = room_polygons([r.outline for r in site.rooms])  # once for all floors
     for i, fl in enumerate(site.floors, start=1):
+        on_floor = np.array([r.floor == fl.id for r in site.rooms], dtype=bool)
+        polys = every[on_floor]
         try:
-            ff = map_floor(site, scene, fl.id, spacing=spacing)
+            ff = map_floor(site, scene, fl.id, spacing=spacing, polygons=polys)
         except SitingError:
             continue
         fields[fl.id] = ff
@@ -328,12 +345,12 @@ def check_site(
         limits = {site.room_limit(r) for r in floor_rooms} - {None}
         # lowest level first: its contour generator serves the higher ones
         regions = {lev: level_region(ff, lev) for lev in sorted({access_limit, *limits})}
-        floors.append((i, floor_rooms, ff, regions))
+        floors.append((i, floor_rooms, ff, regions, polys))
     results = iter(_check_rooms(site, scene, [f[1:] for f in floors]))
     rooms, access = [], []
-    for i, floor_rooms, ff, regions in floors:
+    for i, floor_rooms, ff, regions, polys in floors:
         rooms += [next(results) for _ in floor_rooms]
-        access.append(access_boundary(site, ff, region=regions[access_limit]))
+        access.append(access_boundary(site, ff, region=regions[access_limit], polygons=polys))
         report("rooms", i, n)
     equipment = _check_equipment_all(scene, list(site.equipment))
     report("equipment", 1, 1)

@@ -204,8 +204,9 @@ def _bilinear(x, y, b, bad, zmax, xy, val, z, undefined):
         z[k] = zmax[j + int(np.rint(ty)), i + int(np.rint(tx))]
 
 
-def _outline_bounds(outlines) -> np.ndarray:
-    pts = np.concatenate([np.asarray(o, dtype=np.float64).reshape(-1, 2) for o in outlines])
+def _outline_bounds(pieces) -> np.ndarray:
+    """(xmin, ymin, xmax, ymax) of plan points given as (m, 2) arrays."""
+    pts = np.concatenate([np.asarray(o, dtype=np.float64).reshape(-1, 2) for o in pieces])
     return np.array([*pts.min(axis=0), *pts.max(axis=0)])
 
 
@@ -233,9 +234,10 @@ def room_polygons(outlines) -> np.ndarray:
     shapely Polygons, built in one vectorised call; no validity repair."""
     if not len(outlines):
         return np.empty(0, dtype=object)
-    coords = [np.asarray(o, dtype=np.float64).reshape(-1, 2) for o in outlines]
-    index = np.repeat(np.arange(len(coords)), [len(c) for c in coords])
-    return shapely.polygons(shapely.linearrings(np.concatenate(coords), indices=index))
+    counts = [len(o) for o in outlines]
+    coords = np.array([xy for o in outlines for xy in o], dtype=np.float64).reshape(-1, 2)
+    index = np.repeat(np.arange(len(counts)), counts)
+    return shapely.polygons(shapely.linearrings(coords, indices=index))
 
 
 def _room_widths(polys) -> np.ndarray:
@@ -299,6 +301,7 @@ def floor_grid(
     spacing: float | None = None,
     margin: float | None = None,
     max_points: int = MAX_PLAN_POINTS,
+    polygons=None,
 ) -> PlanGrid:
     """The plan grid for one floor (extent and spacing rules: module docstring).
 
@@ -315,6 +318,9 @@ def floor_grid(
         ``max(2 m, 10 % of the larger side)``.
     max_points : int
         Cap on nx * ny for the automatic spacing.
+    polygons : array of shapely Polygons, optional
+        :func:`room_polygons` of the floor's rooms (in the site's order), if
+        already built.
 
     Returns
     -------
@@ -322,10 +328,12 @@ def floor_grid(
         Heights are ``floor.elevation + site.info.check_heights``.
     """
     floor = site.floor(floor_id)
-    rooms = [r.outline for r in site.rooms if r.floor == floor_id]
-    equip = [np.asarray(e.at)[None, :2] for e in site.equipment if e.floor == floor_id]
-    pieces = list(rooms) + equip
-    if not rooms:
+    if polygons is None:
+        polygons = room_polygons([r.outline for r in site.rooms if r.floor == floor_id])
+    pieces = [np.asarray(e.at)[None, :2] for e in site.equipment if e.floor == floor_id]
+    if len(polygons):
+        pieces.append(shapely.total_bounds(polygons).reshape(2, 2))
+    else:
         pieces += _source_plan_points(site, floor_id) or _source_plan_points(site, None)
     if not pieces:
         raise SitingError(f"floor {floor_id!r} has no rooms, equipment or sources to grid")
@@ -336,7 +344,7 @@ def floor_grid(
         raise ValueError(f"margin must be finite and >= 0; got {margin!r}")
     x0, y0, x1, y1 = x0 - margin, y0 - margin, x1 + margin, y1 + margin
     if spacing is None:
-        widths = _room_widths(room_polygons(rooms))
+        widths = _room_widths(polygons)
         widths = widths[widths > 0]
         h = widths.min() / NODES_PER_ROOM_WIDTH if widths.size else NO_ROOM_SPACING
         h = _fit(float(np.clip(h, MIN_SPACING, MAX_SPACING)), x1 - x0, y1 - y0, max_points)
