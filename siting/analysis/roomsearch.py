@@ -174,10 +174,17 @@ def _points(outl, face, room, face_z, u, xyz, ok):
 
 
 @numba.njit(cache=True)
-def _poll(outl, face, room, face_z, x, step, base, lo, hi, guess, act, dirs, trial, xyz, use):
+def _poll(
+    outl, face, room, face_z, x, step, base, lo, hi, guess, act, n_act, dirs, trial, pts, slot
+):
+    """The trials of the starts ``act[:n_act]``: ``trial[a, j]`` their
+    coordinates, and the absolute points of those that moved and are feasible
+    packed into ``pts``, ``slot[a, j]`` their row there (-1: not evaluated).
+    Returns the number of points."""
     start, vec, _, first, last, _ = outl
     k = dirs.shape[0] + 1
-    for a in range(act.size):
+    cnt = 0
+    for a in range(n_act):
         i = act[a]
         for j in range(k):
             if j < k - 1:
@@ -195,10 +202,44 @@ def _poll(outl, face, room, face_z, x, step, base, lo, hi, guess, act, dirs, tri
                     t0, t1 = x[i, 0] + f * dx, x[i, 1] + f * dy
             trial[a, j, 0], trial[a, j, 1] = t0, t1
             moved = t0 != x[i, 0] or t1 != x[i, 1]
-            ok, xyz[a, j, 0], xyz[a, j, 1], xyz[a, j, 2] = _place(
-                outl, face[i], room[i], face_z[i], t0, t1
-            )
-            use[a, j] = moved and ok
+            ok, px, py, pz = _place(outl, face[i], room[i], face_z[i], t0, t1)
+            if moved and ok:
+                pts[cnt, 0], pts[cnt, 1], pts[cnt, 2] = px, py, pz
+                slot[a, j] = cnt
+                cnt += 1
+            else:
+                slot[a, j] = -1
+    return cnt
+
+
+@numba.njit(cache=True)
+def _advance(outl, face, room, face_z, x, f, step, base, lo, hi, guess, act, n_act, dirs,
+             trial, pts, slot, v, vals, nan_seen, step_tol, near, n_long, grow, shrink):
+    """One iteration after the field call: the values ``v`` of the packed
+    points back to their starts (NaN: ``nan_seen``, and counted as -inf), the
+    moves (:func:`_update`), the starts still active packed into ``act``, and
+    their next trials (:func:`_poll`).  Returns (starts active, points)."""
+    k = dirs.shape[0] + 1
+    for a in range(n_act):
+        i = act[a]
+        for j in range(k):
+            s = slot[a, j]
+            val = -np.inf
+            if s >= 0:
+                val = v[s]
+                if math.isnan(val):
+                    nan_seen[i] = True
+                    val = -np.inf
+            vals[a, j] = val
+    _update(x, f, step, guess, act[:n_act], trial, vals, near, n_long, grow, shrink)
+    m = 0
+    for a in range(n_act):
+        if step[act[a]] > step_tol:
+            act[m] = act[a]
+            m += 1
+    cnt = _poll(outl, face, room, face_z, x, step, base, lo, hi, guess, act, m, dirs,
+                trial, pts, slot)
+    return m, cnt
 
 
 @numba.njit(cache=True)
@@ -279,21 +320,18 @@ def search(magnitude, outlines: Outlines, face, room, face_z, x0, base, lo, hi):
     step = np.where(np.isfinite(f), 1.0, 0.0)
     guess = x.copy()
     k = len(_DIRS) + 1
+    act = np.flatnonzero(step > STEP_TOL)
+    n_act = act.size
+    trial, slot = np.empty((n_act, k, 2)), np.empty((n_act, k), dtype=np.int64)
+    pts, vals = np.empty((n_act * k, 3)), np.empty((n_act, k))
+    cnt = _poll(outl, face, room, face_z, x, step, base, lo, hi, guess, act, n_act, _DIRS,
+                trial, pts, slot)
     for _ in range(MAX_ITER):
-        act = np.flatnonzero(step > STEP_TOL)
-        if act.size == 0:
+        if n_act == 0:
             break
-        trial = np.empty((act.size, k, 2))
-        pts = np.empty((act.size, k, 3))
-        use = np.empty((act.size, k), dtype=np.bool_)
-        _poll(outl, face, room, face_z, x, step, base, lo, hi, guess, act, _DIRS, trial, pts, use)
-        vals = np.full((act.size, k), -np.inf)
-        v = np.asarray(magnitude(pts[use]), dtype=np.float64)
-        bad = np.isnan(v)
-        if bad.any():
-            nan_seen[act[np.nonzero(use)[0][bad]]] = True
-            v[bad] = -np.inf
-        vals[use] = v
-        _update(x, f, step, guess, act, trial, vals, _NEAR, 2 * _D, GROW, SHRINK)
+        v = np.asarray(magnitude(pts[:cnt]), dtype=np.float64)
+        n_act, cnt = _advance(outl, face, room, face_z, x, f, step, base, lo, hi, guess, act,
+                              n_act, _DIRS, trial, pts, slot, v, vals, nan_seen, STEP_TOL,
+                              _NEAR, 2 * _D, GROW, SHRINK)
     _points(outl, face, room, face_z, x, xyz, ok)
     return x, xyz, f, nan_seen
