@@ -26,6 +26,7 @@ the spacing that brings them within it (at least 0.05 m, within the cap).
 
 from __future__ import annotations
 
+import functools
 import math
 from dataclasses import dataclass
 
@@ -91,7 +92,7 @@ class PlanGrid:
         """(ny, nx), the shape of every plan array on this grid."""
         return (self.y.size, self.x.size)
 
-    @property
+    @functools.cached_property
     def spacing(self) -> float:
         """The larger of the two node spacings [m]."""
         return float(max(np.max(np.diff(self.x)), np.max(np.diff(self.y))))
