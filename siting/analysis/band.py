@@ -94,16 +94,19 @@ def _propose(xi, fxi, ai, fai, bi, fbi, last, z_tol, rtol):
     flat = False
     ok = False
     if ai < xi < bi:
-        # f(t) ~ fx + c1 (t - x) + c2 (t - x)^2 through the three points
-        sb, sa = (fbi - fxi) / (bi - xi), (fai - fxi) / (ai - xi)
-        c2 = (sb - sa) / (bi - ai)
-        c1 = sb - c2 * (bi - xi)
-        if c2 < 0.0:
-            t = xi - c1 / (2.0 * c2)
-            if ai < t < bi:
-                flat = -c1 * c1 / (4.0 * c2) <= rtol * fxi
+        # f(x + d) ~ f(x) + c1 d + c2 d^2 through the three points: with
+        # da = a - x < 0 < db = b - x and g. = f(.) - f(x), the vertex is at
+        # d = (ga db^2 - gb da^2) / den, den = 2 (ga db - gb da), a maximum when
+        # den < 0, with gain -c2 d^2 = -den d^2 / (2 |da db (db - da)|)
+        da, db = ai - xi, bi - xi
+        ga, gb = fai - fxi, fbi - fxi
+        den = 2.0 * (ga * db - gb * da)
+        if den < 0.0:
+            d = (ga * db * db - gb * da * da) / den
+            if da < d < db:
+                flat = -0.5 * den * d * d <= rtol * fxi * (-da * db * (db - da))
                 if flat or bi - ai < 0.8 * last:
-                    u, ok = t, True
+                    u, ok = xi + d, True
     if not ok and (xi == ai or xi == bi):
         # best at a band face: probe just inside it; the face holds the maximum
         # when |B| falls from it into the band (a local test)
