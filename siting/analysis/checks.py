@@ -247,10 +247,13 @@ def access_boundary(
     floor_rooms = [r for r in site.rooms if r.floor == fid]
     if polygons is None:
         polygons = room_polygons([r.outline for r in floor_rooms])
-    rooms = polygons[np.array([r.zone in (3, 4) for r in floor_rooms], dtype=bool)]
-    covered = shapely.union_all(shapely.make_valid(rooms)) if len(rooms) else Polygon()
-    rest = region.difference(covered) if not region.is_empty else MultiPolygon()
-    parts = [p for p in shapely.get_parts(rest) if isinstance(p, Polygon) and p.area > 0]
+    parts = []
+    if not region.is_empty:  # (no line on the floor: nothing to contain)
+        rooms = polygons[np.array([r.zone in (3, 4) for r in floor_rooms], dtype=bool)]
+        bad = ~shapely.is_valid(rooms)
+        rooms[bad] = shapely.make_valid(rooms[bad])
+        rest = region.difference(shapely.union_all(rooms)) if len(rooms) else region
+        parts = [p for p in shapely.get_parts(rest) if isinstance(p, Polygon) and p.area > 0]
     uncovered = MultiPolygon(parts)
     area = float(uncovered.area)
     point = None
