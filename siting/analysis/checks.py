@@ -336,24 +336,26 @@ def check_site(
     n = len(site.floors)
     every = room_polygons([r.outline for r in site.rooms])  # once for all floors
     for i, fl in enumerate(site.floors, start=1):
-        on_floor = np.array([r.floor == fl.id for r in site.rooms], dtype=bool)
-        polys = every[on_floor]
+        polys = every[np.array([r.floor == fl.id for r in site.rooms], dtype=bool)]
         try:
             ff = map_floor(site, scene, fl.id, spacing=spacing, polygons=polys)
         except SitingError:
             continue
         fields[fl.id] = ff
+        floors.append((i, [r for r in site.rooms if r.floor == fl.id], ff, {}, polys))
         report("field", i, n)
-        floor_rooms = [r for r in site.rooms if r.floor == fl.id]
+    # the plan geometry of every floor in one run, after the field maps (the
+    # caches the field evaluation left cold warm up once, not once per floor)
+    access = []
+    for _, floor_rooms, ff, regions, polys in floors:
         limits = {site.room_limit(r) for r in floor_rooms} - {None}
         # lowest level first: its contour generator serves the higher ones
-        regions = {lev: level_region(ff, lev) for lev in sorted({access_limit, *limits})}
-        floors.append((i, floor_rooms, ff, regions, polys))
-    results = iter(_check_rooms(site, scene, [f[1:] for f in floors]))
-    rooms, access = [], []
-    for i, floor_rooms, ff, regions, polys in floors:
-        rooms += [next(results) for _ in floor_rooms]
+        regions.update((lev, level_region(ff, lev)) for lev in sorted({access_limit, *limits}))
         access.append(access_boundary(site, ff, region=regions[access_limit], polygons=polys))
+    results = iter(_check_rooms(site, scene, [f[1:] for f in floors]))
+    rooms = []
+    for i, floor_rooms, *_ in floors:
+        rooms += [next(results) for _ in floor_rooms]
         report("rooms", i, n)
     equipment = _check_equipment_all(scene, list(site.equipment))
     report("equipment", 1, 1)
