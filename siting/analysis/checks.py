@@ -286,19 +286,34 @@ def map_floor(
     gridded again at ``h sqrt(LINE_TOL / error)`` (the error falls as h^2) by
     :func:`siting.analysis.grid.refined`, and the finer map is returned.
     ``polygons``: :func:`room_polygons` of the floor's rooms, if already built.
+    Raises SitingError for a floor with nothing to grid.
     """
     grid = floor_grid(site, floor_id, spacing=spacing, polygons=polygons)
-    levels = line_levels(site, floor_id)
-    samples = band_samples(scene, grid)
+    return _map_grids(site, scene, {floor_id: grid}, spacing)[floor_id]
+
+
+def _map_grids(site: Site, scene, grids: dict, spacing: float | None, done=None) -> dict:
+    """:func:`map_floor` for the floors of ``grids`` (id -> first grid), each
+    stage for every floor before the next, so that the plan work between the
+    field calls runs in one go; ``done(floor id)`` is called as each map is
+    finished."""
+    levels = {fid: line_levels(site, fid) for fid in grids}
+    samples = {fid: band_samples(scene, g) for fid, g in grids.items()}
+    kept = dict(grids)
     if spacing is None:
         # the spacing is judged on the check heights alone; a grid that is replaced
         # is not searched between them
-        err = line_error(band_max(scene, grid, refine=False, samples=samples), levels)
-        if err > LINE_TOL:
-            finer = refined(grid, grid.spacing * math.sqrt(LINE_TOL / err))
-            if finer is not grid:
-                return band_max(scene, finer, ceiling=levels[-1])
-    return band_max(scene, grid, ceiling=levels[-1], samples=samples)
+        for fid, grid in grids.items():
+            err = line_error(band_max(scene, grid, refine=False, samples=samples[fid]), levels[fid])
+            if err > LINE_TOL:
+                kept[fid] = refined(grid, grid.spacing * math.sqrt(LINE_TOL / err))
+    out = {}
+    for fid, g in kept.items():
+        first = samples[fid] if g is grids[fid] else None
+        out[fid] = band_max(scene, g, ceiling=levels[fid][-1], samples=first)
+        if done is not None:
+            done(fid)
+    return out
 
 
 def check_site(
@@ -332,18 +347,21 @@ def check_site(
     """
     report = progress or (lambda step, i, n: None)
     access_limit = float(site.info.access_limit)
-    fields, floors = {}, []
     n = len(site.floors)
+    number = {fl.id: i for i, fl in enumerate(site.floors, start=1)}
     every = room_polygons([r.outline for r in site.rooms])  # once for all floors
-    for i, fl in enumerate(site.floors, start=1):
-        polys = every[np.array([r.floor == fl.id for r in site.rooms], dtype=bool)]
+    grids, floor_polys = {}, {}
+    for fl in site.floors:
+        floor_polys[fl.id] = every[np.array([r.floor == fl.id for r in site.rooms], dtype=bool)]
         try:
-            ff = map_floor(site, scene, fl.id, spacing=spacing, polygons=polys)
+            grids[fl.id] = floor_grid(site, fl.id, spacing=spacing, polygons=floor_polys[fl.id])
         except SitingError:
-            continue
-        fields[fl.id] = ff
-        floors.append((i, [r for r in site.rooms if r.floor == fl.id], ff, {}, polys))
-        report("field", i, n)
+            continue  # nothing to grid on this floor
+    fields = _map_grids(site, scene, grids, spacing, lambda fid: report("field", number[fid], n))
+    floors = [
+        (number[fid], [r for r in site.rooms if r.floor == fid], ff, {}, floor_polys[fid])
+        for fid, ff in fields.items()
+    ]
     # the plan geometry of every floor in one run, after the field maps (the
     # caches the field evaluation left cold warm up once, not once per floor)
     access = []
