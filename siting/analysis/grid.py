@@ -87,6 +87,15 @@ class PlanGrid:
             raise ValueError("heights must hold at least one finite value")
         object.__setattr__(self, "heights", h)
 
+    @classmethod
+    def _of_nodes(cls, floor: str, x: np.ndarray, y: np.ndarray, heights: np.ndarray):
+        """A grid from axes made by :func:`_nodes` (finite, increasing, contiguous)
+        and unique ascending heights: the checks of ``__post_init__`` are skipped."""
+        grid = object.__new__(cls)
+        for name, value in (("floor", floor), ("x", x), ("y", y), ("heights", heights)):
+            object.__setattr__(grid, name, value)
+        return grid
+
     @property
     def shape(self) -> tuple[int, int]:
         """(ny, nx), the shape of every plan array on this grid."""
@@ -285,7 +294,7 @@ def refined(grid: PlanGrid, spacing: float, *, max_points: int = MAX_PLAN_POINTS
     h = _fit(max(float(spacing), MIN_SPACING), x1 - x0, y1 - y0, max_points)
     if h >= grid.spacing:
         return grid
-    return PlanGrid(grid.floor, _nodes(x0, x1, h), _nodes(y0, y1, h), grid.heights)
+    return PlanGrid._of_nodes(grid.floor, _nodes(x0, x1, h), _nodes(y0, y1, h), grid.heights)
 
 
 def _nodes(lo: float, hi: float, spacing: float) -> np.ndarray:
@@ -353,5 +362,7 @@ def floor_grid(
         h = float(spacing)
         if not np.isfinite(h) or h <= 0:
             raise ValueError(f"spacing must be finite and > 0; got {spacing!r}")
-    heights = floor.elevation + np.asarray(site.info.check_heights, dtype=np.float64)
-    return PlanGrid(floor_id, _nodes(x0, x1, h), _nodes(y0, y1, h), heights)
+    heights = np.unique(floor.elevation + np.asarray(site.info.check_heights, dtype=np.float64))
+    if heights.size == 0 or not np.all(np.isfinite(heights)):
+        raise ValueError(f"check heights on floor {floor_id!r}: at least one, all finite")
+    return PlanGrid._of_nodes(floor_id, _nodes(x0, x1, h), _nodes(y0, y1, h), heights)
