@@ -24,14 +24,38 @@ from siting.analysis.roomsearch import Outlines, search
 N_FACE_STARTS, N_WALL_STARTS = 2, 2
 
 
-def _top_per_group(values, group, keep, n):
-    """Indices of the ``n`` largest ``values`` of each group where ``keep``, and
-    each one's rank (0 = largest) within its group."""
-    idx = np.flatnonzero(keep)
-    idx = idx[np.lexsort((-values[idx], group[idx]))]
-    g = group[idx]
-    rank = np.arange(idx.size) - np.searchsorted(g, g, side="left")
-    return idx[rank < n], rank[rank < n]
+@numba.njit(cache=True)
+def _wall_peaks(vals, room, n_top, out):
+    """Indices of the ``n_top`` largest local maxima of ``vals`` along each closed
+    outline (samples ordered by ``room``; a maximum is >= both neighbours and
+    finite), room by room, largest first (ties: in sample order), into ``out``;
+    returns their count."""
+    n, k, a = vals.size, 0, 0
+    top_v, top_i = np.empty(n_top), np.empty(n_top, dtype=np.int64)
+    while a < n:
+        b = a
+        while b < n and room[b] == room[a]:
+            b += 1
+        top_v[:], top_i[:] = -np.inf, -1
+        for t in range(a, b):
+            v = vals[t]
+            prev = vals[t - 1] if t > a else vals[b - 1]
+            nxt = vals[t + 1] if t < b - 1 else vals[a]
+            if not (v > -np.inf and v >= prev and v >= nxt):
+                continue
+            p = 0
+            while p < n_top and not v > top_v[p]:
+                p += 1
+            for q in range(n_top - 1, p, -1):
+                top_v[q], top_i[q] = top_v[q - 1], top_i[q - 1]
+            if p < n_top:
+                top_v[p], top_i[p] = v, t
+        for q in range(n_top):
+            if top_i[q] >= 0:
+                out[k] = top_i[q]
+                k += 1
+        a = b
+    return k
 
 
 @numba.njit(cache=True)
@@ -164,14 +188,8 @@ def _wall_starts(scene, walls, groups, group_of, nan_seen):
         best = np.minimum.reduceat(np.where(hit, np.arange(zq.size), zq.size), first)
         vals[bad], wz[bad] = top, zq[best]
     vals[np.isnan(vals)] = -np.inf
-    # neighbours along each closed outline (samples are ordered by room)
-    first = np.searchsorted(room, room, side="left")
-    last = np.searchsorted(room, room, side="right") - 1
-    idx = np.arange(s.size)
-    prev = np.where(idx > first, idx - 1, last)
-    nxt = np.where(idx < last, idx + 1, first)
-    peak = (vals >= vals[prev]) & (vals >= vals[nxt]) & (vals > -np.inf)
-    sel, _ = _top_per_group(vals, room, peak, N_WALL_STARTS)
+    sel = np.empty(s.size, dtype=np.int64)
+    sel = sel[: _wall_peaks(vals, room, N_WALL_STARTS, sel)]
     return np.column_stack([s[sel], wz[sel]]), room[sel]
 
 
