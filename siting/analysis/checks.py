@@ -56,7 +56,7 @@ import shapely
 from shapely.geometry import MultiPolygon, Polygon
 
 from siting.analysis.band import band_max, band_samples
-from siting.analysis.contours import LINE_TOL, clearance, level_region, line_error
+from siting.analysis.contours import LINE_TOL, clearance_and_area, level_region, line_error
 from siting.analysis.grid import FloorField, floor_grid, refined, room_polygons
 from siting.analysis.roommax import room_maxima
 from siting.errors import SitingError
@@ -124,8 +124,8 @@ def _room_result(site, room, poly, mx, at, nan_seen, floor_field, region):
         status = "info"
     else:
         status = "fail" if (nan_seen or not mx < limit) else "pass"
-        margin = clearance(poly, region)
-        area = float(poly.intersection(region).area) if margin < 0 else 0.0
+        margin, area = clearance_and_area(poly, region)
+        area = area if margin < 0 else 0.0
         if (status == "fail") != (margin < 0):
             margin = 0.0
     return RoomResult(

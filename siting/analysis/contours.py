@@ -31,7 +31,7 @@ import shapely
 from contourpy import FillType, LineType
 from shapely.geometry import MultiPolygon, Polygon
 
-from siting.analysis.depth import depth
+from siting.analysis.depth import depth, overlap
 from siting.analysis.grid import FloorField
 
 #: Position error allowed to a drawn isogauss line by the automatic spacing [m].
@@ -219,10 +219,18 @@ def clearance(polygon, region, *, tol: float = LINE_TOL) -> float:
         depth, at most ``tol`` deeper).  Where the region is closed along a
         grid border, that border counts as its line.
     """
+    return clearance_and_area(polygon, region, tol=tol)[0]
+
+
+def clearance_and_area(polygon, region, *, tol: float = LINE_TOL) -> tuple[float, float]:
+    """:func:`clearance` and the area of ``polygon n region`` [m^2], from one
+    intersection."""
     if region.is_empty:
-        return math.inf
-    d = depth(polygon, region, tol=tol)
-    return -d if d > 0 else float(polygon.distance(region))
+        return math.inf, 0.0
+    inter = overlap(polygon, region)
+    area = float(inter.area)
+    d = depth(polygon, region, tol=tol, inter=inter) if area > 0 else 0.0
+    return (-d if d > 0 else float(polygon.distance(region))), area
 
 
 def line_error(floor_field: FloorField, levels) -> float:

@@ -139,7 +139,15 @@ def _branch_and_bound(line, rings, verts, x0, y0, side, nx, ny, tol, min_half):
     return max(upper, lower), lower
 
 
-def depth(polygon, region, *, tol: float) -> float:
+def overlap(polygon, region):
+    """The polygonal part of ``polygon n region`` (lines and points dropped)."""
+    inter = shapely.intersection(polygon, region)
+    if shapely.get_type_id(inter) == 7:  # a collection: keep its polygons
+        inter = shapely.union_all([p for p in shapely.get_parts(inter) if p.geom_type == "Polygon"])
+    return inter
+
+
+def depth(polygon, region, *, tol: float, inter=None) -> float:
     """Largest distance from the boundary of ``region`` of a point of
     ``polygon`` inside ``region`` [m] (method: module docstring).
 
@@ -150,6 +158,8 @@ def depth(polygon, region, *, tol: float) -> float:
     tol : float
         Accuracy [m], > 0: the result lies in [exact, exact + tol], except
         where a sliver of the overlap thinner than about ``tol / 8`` is met.
+    inter : shapely geometry, optional
+        :func:`overlap` of the two, if already computed.
 
     Returns
     -------
@@ -158,9 +168,8 @@ def depth(polygon, region, *, tol: float) -> float:
     """
     if not tol > 0:
         raise ValueError(f"tol must be > 0; got {tol!r}")
-    inter = shapely.intersection(polygon, region)
-    if shapely.get_type_id(inter) == 7:  # a collection: keep its polygons
-        inter = shapely.union_all([p for p in shapely.get_parts(inter) if p.geom_type == "Polygon"])
+    if inter is None:
+        inter = overlap(polygon, region)
     if inter.is_empty or inter.area <= 0.0:
         return 0.0
     rings = _segments(inter)
