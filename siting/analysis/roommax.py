@@ -159,18 +159,43 @@ def _face_starts(geoms, outlines, first, floor_field, nan_seen, node_best, node_
     return np.concatenate(starts), np.concatenate(room_of)
 
 
-def _wall_starts(scene, walls, groups, group_of, nan_seen):
+@numba.njit(cache=True)
+def _wall_samples(start, vec, s0, first, last, r0, r1, h):
+    """Samples along the outlines of rooms r0..r1-1, at most ``h`` apart on each
+    segment, every vertex included: arc lengths from each room's first vertex,
+    rooms, and plan points (n, 2), ordered by room."""
+    n = 0
+    if r1 <= r0:
+        return np.empty(0), np.empty(0, dtype=np.int64), np.empty((0, 2))
+    for e in range(first[r0], last[r1 - 1] + 1):
+        n += max(math.ceil(math.hypot(vec[e, 0], vec[e, 1]) / h), 1)
+    s, room, xy = np.empty(n), np.empty(n, dtype=np.int64), np.empty((n, 2))
+    k = 0
+    for r in range(r0, r1):
+        for e in range(first[r], last[r] + 1):
+            length = math.hypot(vec[e, 0], vec[e, 1])
+            m = max(math.ceil(length / h), 1)
+            for t in range(m):
+                frac = t / m
+                s[k], room[k] = s0[e] + frac * length - s0[first[r]], r
+                xy[k, 0], xy[k, 1] = start[e, 0] + frac * vec[e, 0], start[e, 1] + frac * vec[e, 1]
+                k += 1
+    return s, room, xy
+
+
+def _wall_starts(scene, walls, groups, first_room, nan_seen):
     """Starts (arc length, z) and rooms for the wall search on every floor: the best
     local maxima of the interpolated band maximum along each outline (the model
     itself where the interpolation stencil has undefined nodes)."""
-    spacing = np.array([ff.grid.spacing for _, ff in groups])[group_of]
-    s, room = walls.samples(spacing)
-    wxy = walls.xy(room, s)
-    vals, wz = np.empty(s.size), np.empty(s.size)
-    near_bad = np.zeros(s.size, dtype=bool)
-    for gi, (_, ff) in enumerate(groups):
-        m = group_of[room] == gi
-        vals[m], wz[m], near_bad[m] = ff.interpolate(wxy[m])
+    start, vec, s0, first, last, _ = walls.arrays
+    parts = []
+    for gi, (polys, ff) in enumerate(groups):
+        r0 = int(first_room[gi])
+        s, room, wxy = _wall_samples(start, vec, s0, first, last, r0, r0 + len(polys),
+                                     ff.grid.spacing)
+        parts.append((s, room, wxy, *ff.interpolate(wxy)))
+    s, room, wxy, vals, wz, near_bad = (np.concatenate(c) for c in zip(*parts, strict=True))
+    group_of = np.repeat(np.arange(len(groups)), [len(p) for p, _ in groups])
     bad = np.flatnonzero(near_bad)
     if bad.size:
         heights = [groups[gi][1].grid.heights for gi in group_of[room[bad]]]
@@ -239,7 +264,7 @@ def room_maxima(scene, groups):
     fs, froom = np.concatenate(fs), np.concatenate(froom)
 
     # walls: starts (arc length, z) at the best local maxima along each outline
-    ws, wroom = _wall_starts(scene, walls, groups, group_of, nan_seen)
+    ws, wroom = _wall_starts(scene, walls, groups, first_room, nan_seen)
 
     # one search over both kinds and every floor: rows [0, nf) faces, [nf, n) walls
     nf = len(fs)

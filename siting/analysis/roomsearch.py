@@ -81,25 +81,6 @@ class Outlines:
     def arrays(self):
         return self.start, self.vec, self.s0, self.first, self.last, self.perimeter
 
-    def samples(self, spacing):
-        """Arc lengths (N,) and rooms (N,) of samples at most ``spacing[room]``
-        apart, every vertex included, ordered by room."""
-        length = np.hypot(*self.vec.T)
-        seg_room = np.repeat(np.arange(self.first.size), self.last - self.first + 1)
-        n = np.maximum(np.ceil(length / spacing[seg_room]).astype(int), 1)
-        seg = np.repeat(np.arange(length.size), n)
-        frac = (np.arange(seg.size) - np.repeat(np.cumsum(n) - n, n)) / n[seg]
-        room = seg_room[seg]
-        return self.s0[seg] + frac * length[seg] - self.s0[self.first[room]], room
-
-    def xy(self, room, s):
-        """Plan points (N, 2) at arc length ``s`` (N,) along the outline of ``room`` (N,)."""
-        room = np.asarray(room, dtype=np.int64)
-        s = np.asarray(s, dtype=np.float64)
-        out = np.empty((s.size, 2))
-        _outline_points(*self.arrays, room, s, out)
-        return out
-
 
 @numba.njit(cache=True, inline="always")
 def _outline_point(start, vec, s0, first, last, perim, r, s):
@@ -114,12 +95,6 @@ def _outline_point(start, vec, s0, first, last, perim, r, s):
     t = (g - s0[lo]) / math.hypot(vec[lo, 0], vec[lo, 1])
     t = min(max(t, 0.0), 1.0)
     return start[lo, 0] + t * vec[lo, 0], start[lo, 1] + t * vec[lo, 1]
-
-
-@numba.njit(cache=True)
-def _outline_points(start, vec, s0, first, last, perim, room, s, out):
-    for i in range(s.size):
-        out[i, 0], out[i, 1] = _outline_point(start, vec, s0, first, last, perim, room[i], s[i])
 
 
 @numba.njit(cache=True, inline="always")
