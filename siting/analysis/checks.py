@@ -57,7 +57,7 @@ from shapely.geometry import MultiPolygon, Polygon
 
 from siting.analysis.band import band_max, band_samples
 from siting.analysis.contours import LINE_TOL, clearance_and_area, level_region, line_error
-from siting.analysis.grid import FloorField, floor_grid, refined, room_polygons
+from siting.analysis.grid import FloorField, floor_grid, refined, room_polygons, room_widths
 from siting.analysis.roommax import room_maxima
 from siting.errors import SitingError
 from siting.site.model import Equipment, Room, Site
@@ -350,11 +350,15 @@ def check_site(
     n = len(site.floors)
     number = {fl.id: i for i, fl in enumerate(site.floors, start=1)}
     every = room_polygons([r.outline for r in site.rooms])  # once for all floors
+    widths = room_widths(every)
     grids, floor_polys = {}, {}
     for fl in site.floors:
-        floor_polys[fl.id] = every[np.array([r.floor == fl.id for r in site.rooms], dtype=bool)]
+        here = np.array([r.floor == fl.id for r in site.rooms], dtype=bool)
+        floor_polys[fl.id] = every[here]
         try:
-            grids[fl.id] = floor_grid(site, fl.id, spacing=spacing, polygons=floor_polys[fl.id])
+            grids[fl.id] = floor_grid(
+                site, fl.id, spacing=spacing, polygons=every[here], widths=widths[here]
+            )
         except SitingError:
             continue  # nothing to grid on this floor
     fields = _map_grids(site, scene, grids, spacing, lambda fid: report("field", number[fid], n))

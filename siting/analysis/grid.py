@@ -250,7 +250,7 @@ def room_polygons(outlines) -> np.ndarray:
     return shapely.polygons(shapely.linearrings(coords, indices=index))
 
 
-def _room_widths(polys) -> np.ndarray:
+def room_widths(polys) -> np.ndarray:
     """Short sides of the minimum rotated rectangles of room polygons [m] (0 if degenerate)."""
     if not len(polys):
         return np.empty(0)
@@ -312,6 +312,7 @@ def floor_grid(
     margin: float | None = None,
     max_points: int = MAX_PLAN_POINTS,
     polygons=None,
+    widths=None,
 ) -> PlanGrid:
     """The plan grid for one floor (extent and spacing rules: module docstring).
 
@@ -331,6 +332,8 @@ def floor_grid(
     polygons : array of shapely Polygons, optional
         :func:`room_polygons` of the floor's rooms (in the site's order), if
         already built.
+    widths : ndarray, optional
+        :func:`room_widths` of those polygons, if already computed.
 
     Returns
     -------
@@ -354,7 +357,7 @@ def floor_grid(
         raise ValueError(f"margin must be finite and >= 0; got {margin!r}")
     x0, y0, x1, y1 = x0 - margin, y0 - margin, x1 + margin, y1 + margin
     if spacing is None:
-        widths = _room_widths(polygons)
+        widths = room_widths(polygons) if widths is None else np.asarray(widths)
         widths = widths[widths > 0]
         h = widths.min() / NODES_PER_ROOM_WIDTH if widths.size else NO_ROOM_SPACING
         h = _fit(float(np.clip(h, MIN_SPACING, MAX_SPACING)), x1 - x0, y1 - y0, max_points)
