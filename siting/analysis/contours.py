@@ -70,13 +70,20 @@ def _generator(floor_field: FloorField, crop: tuple[int, int, int, int] | None =
             return gen
     g = floor_field.grid
     j0, j1, i0, i1 = crop or (0, g.y.size, 0, g.x.size)
-    gen = contourpy.contour_generator(
-        g.x[i0:i1],
-        g.y[j0:j1],
-        contour_values(floor_field)[j0:j1, i0:i1],
-        name="serial",
-        fill_type=FillType.OuterOffset,
+    x, y = np.meshgrid(g.x[i0:i1], g.y[j0:j1])
+    # contourpy's serial generator made directly (a public class): the values
+    # have no NaN and no mask (contour_values), so the checks and masked-array
+    # handling of contourpy.contour_generator have nothing to do
+    gen = contourpy.SerialContourGenerator(
+        x,
+        y,
+        np.ascontiguousarray(contour_values(floor_field)[j0:j1, i0:i1]),
+        None,
+        corner_mask=True,
         line_type=LineType.Separate,
+        fill_type=FillType.OuterOffset,
+        quad_as_tri=False,
+        z_interp=contourpy.ZInterp.Linear,
     )
     cache[crop] = gen
     return gen
