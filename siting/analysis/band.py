@@ -141,11 +141,13 @@ def _surrounded(fx, invalid, nx, ceiling, i):
 
 
 @numba.njit(cache=True)
-def _active(x, fx, a, fa, b, fb, invalid, valid_any, nx, ceiling, act, state):
+def _active(x, fx, a, fa, b, fb, invalid, valid_any, gx, gy, ceiling, act, state):
     """The nodes to search, into ``act``, with their search state (x, f(x), a,
-    f(a), b, f(b), previous bracket length) into the rows of ``state``; returns
-    their count: nodes valid at every check height and not stopped at the
-    ceiling already."""
+    f(a), b, f(b), previous bracket length, plan x, plan y; node i at
+    ``gx[i % nx], gy[i // nx]``) into the rows of ``state``; returns their
+    count: nodes valid at every check height and not stopped at the ceiling
+    already."""
+    nx = gx.size
     k = 0
     for i in range(fx.size):
         if invalid[i] or not valid_any[i]:
@@ -155,8 +157,17 @@ def _active(x, fx, a, fa, b, fb, invalid, valid_any, nx, ceiling, act, state):
         act[k] = i
         state[k, 0], state[k, 1], state[k, 2], state[k, 3] = x[i], fx[i], a[i], fa[i]
         state[k, 4], state[k, 5], state[k, 6] = b[i], fb[i], np.inf
+        state[k, 7], state[k, 8] = gx[i % nx], gy[i // nx]
         k += 1
     return k
+
+
+@numba.njit(cache=True)
+def _finish(x, fx, valid_any):
+    """NaN for the best height and value of nodes with no valid height."""
+    for i in range(fx.size):
+        if not valid_any[i]:
+            x[i], fx[i] = np.nan, np.nan
 
 
 @numba.njit(cache=True)
@@ -184,7 +195,7 @@ def _update(u, f, flat, xi, fxi, ai, fai, bi, fbi, rtol, z_tol):
 
 @numba.njit(cache=True)
 def _step(
-    n_act, first, act, state, pts, fu, flat, x, fx, px, py, z_tol, rtol, ceiling, invalid, nx
+    n_act, first, act, state, pts, fu, flat, x, fx, z_tol, rtol, ceiling, invalid, nx
 ):
     """One step of the search over the active nodes ``act[:n_act]`` (their
     state in the rows of ``state``, as :func:`_active` lays it out): unless
@@ -193,8 +204,7 @@ def _step(
     finishes when converged, undefined at the trial or at the ceiling; the
     others get their next trial (:func:`_propose`) and are packed, in order,
     into ``act``, ``state``, ``pts`` and ``flat``.  Returns their count.
-    ``px``, ``py`` are the nodes' plan coordinates; ``nx`` nodes make a row of
-    the grid.  (The state travels with the packed list so that every pass
+    ``nx`` nodes make a row of the grid.  (The state travels with the packed list so that every pass
     reads and writes it in order.)"""
     k = 0
     for m in range(n_act):
@@ -215,8 +225,10 @@ def _step(
         u, fl = _propose(xi, fxi, ai, fai, bi, fbi, last, z_tol, rtol)
         state[k, 0], state[k, 1], state[k, 2], state[k, 3] = xi, fxi, ai, fai
         state[k, 4], state[k, 5], state[k, 6] = bi, fbi, bi - ai
+        px, py = state[m, 7], state[m, 8]
+        state[k, 7], state[k, 8] = px, py
         act[k], flat[k] = i, fl
-        pts[k, 0], pts[k, 1], pts[k, 2] = px[i], py[i], u
+        pts[k, 0], pts[k, 1], pts[k, 2] = px, py, u
         k += 1
     return k
 
@@ -278,16 +290,14 @@ def band_max(
     invalid, valid_any = np.zeros(n, dtype=bool), np.zeros(n, dtype=bool)
     _brackets(mags, zs, x, fx, a, fa, b, fb, invalid, valid_any)
     if refine and zs.size > 1:
-        act, state = np.empty(n, dtype=np.int64), np.empty((n, 7))
-        k = _active(x, fx, a, fa, b, fb, invalid, valid_any, nx, ceiling, act, state)
-        px, py = np.tile(grid.x, ny), np.repeat(grid.y, nx)
+        act, state = np.empty(n, dtype=np.int64), np.empty((n, 9))
+        k = _active(x, fx, a, fa, b, fb, invalid, valid_any, grid.x, grid.y, ceiling, act, state)
         pts, flat, fu = np.empty((k, 3)), np.empty(k, dtype=np.bool_), np.empty(0)
         for it in range(MAX_Z_STEPS + 1):
-            k = _step(k, it == 0, act, state, pts, fu, flat, x, fx, px, py,
+            k = _step(k, it == 0, act, state, pts, fu, flat, x, fx,
                       Z_TOL, RTOL, ceiling, invalid, nx)
             if k == 0 or it == MAX_Z_STEPS:
                 break
             fu = np.asarray(scene.magnitude(pts[:k]), dtype=np.float64)
-    bmax = np.where(valid_any, fx, np.nan)
-    zmax = np.where(valid_any, x, np.nan)
-    return FloorField(grid, bmax.reshape(ny, nx), invalid.reshape(ny, nx), zmax.reshape(ny, nx))
+    _finish(x, fx, valid_any)
+    return FloorField(grid, fx.reshape(ny, nx), invalid.reshape(ny, nx), x.reshape(ny, nx))
