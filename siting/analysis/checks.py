@@ -247,18 +247,20 @@ def access_boundary(
     floor_rooms = [r for r in site.rooms if r.floor == fid]
     if polygons is None:
         polygons = room_polygons([r.outline for r in floor_rooms])
-    parts = []
+    parts = np.empty(0, dtype=object)
     if not region.is_empty:  # (no line on the floor: nothing to contain)
         rooms = polygons[np.array([r.zone in (3, 4) for r in floor_rooms], dtype=bool)]
         bad = ~shapely.is_valid(rooms)
-        rooms[bad] = shapely.make_valid(rooms[bad])
+        if bad.any():
+            rooms[bad] = shapely.make_valid(rooms[bad])
         rest = region.difference(shapely.union_all(rooms)) if len(rooms) else region
-        parts = [p for p in shapely.get_parts(rest) if isinstance(p, Polygon) and p.area > 0]
-    uncovered = MultiPolygon(parts)
+        parts = shapely.get_parts(rest)
+        parts = parts[(shapely.get_type_id(parts) == 3) & (shapely.area(parts) > 0)]
+    uncovered = shapely.multipolygons(parts)
     area = float(uncovered.area)
     point = None
-    if parts:
-        q = max(parts, key=lambda p: p.area).representative_point()
+    if len(parts):
+        q = parts[np.argmax(shapely.area(parts))].representative_point()
         point = np.array([q.x, q.y])
     return AccessResult(
         fid, limit, area < CONTAINED_TOL, uncovered, area, point, float(region.area)

@@ -126,6 +126,25 @@ def _as_multipolygon(geom) -> MultiPolygon:
     return MultiPolygon(parts)
 
 
+def _polygons(points, offsets) -> np.ndarray:
+    """Shapely Polygons from contourpy's ``OuterOffset`` output (per polygon, its
+    points and the offsets of its rings, the outer one first), in a few
+    vectorised calls; rings of fewer than 4 points are dropped."""
+    if not len(points):
+        return np.empty(0, dtype=object)
+    lengths = np.concatenate([np.diff(off) for off in offsets])
+    poly_of_ring = np.repeat(np.arange(len(offsets)), [len(off) - 1 for off in offsets])
+    ring_of_point = np.repeat(np.arange(lengths.size), lengths)
+    keep = lengths >= 4
+    if not keep.any():
+        return np.empty(0, dtype=object)
+    on = keep[ring_of_point]
+    ring_index = (np.cumsum(keep) - 1)[ring_of_point[on]]
+    rings = shapely.linearrings(np.concatenate(points)[on], indices=ring_index)
+    _, poly_index = np.unique(poly_of_ring[keep], return_inverse=True)
+    return shapely.polygons(rings, indices=poly_index)
+
+
 def level_region(floor_field: FloorField, level: float) -> MultiPolygon:
     """Plan region where the band maximum of |B| is >= ``level``.
 
@@ -150,15 +169,10 @@ def level_region(floor_field: FloorField, level: float) -> MultiPolygon:
     # contoured over the nodes that reach the level and one more all round: every
     # cell the line crosses is inside, and the polygons are those of the full grid
     points, offsets = _generator(floor_field, crop).filled(lev, np.inf)
-    polys = []
-    for pts, off in zip(points, offsets, strict=True):
-        rings = [pts[off[i] : off[i + 1]] for i in range(len(off) - 1)]
-        rings = [r for r in rings if len(r) >= 4]
-        if rings:
-            polys.append(Polygon(rings[0], rings[1:]))
-    if not polys:
+    polys = _polygons(points, offsets)
+    if not len(polys):
         return MultiPolygon()
-    region = MultiPolygon(polys)
+    region = shapely.multipolygons(polys)
     if not region.is_valid:
         region = _as_multipolygon(shapely.make_valid(region))
     return region
