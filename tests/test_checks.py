@@ -376,3 +376,22 @@ def test_automatic_spacing_keeps_the_drawn_line_within_its_tolerance():
             assert ff.grid.spacing == 0.5 and miss > 5 * LINE_TOL
         else:  # measured: 0.152 m, line off by at most 8.8 mm (0.095 m at 0.5 m)
             assert ff.grid.spacing < 0.3 and miss <= tol
+
+
+def test_self_intersecting_outlines_searched_by_hull_covered_by_their_pieces():
+    # a bow-tie zone 4 room whose two triangles cover the disc where |y| < |x|: its
+    # valid pieces cover half of the 0.5 mT disc, its convex hull all of it
+    tie = room("mr", [(-2, -2), (2, 2), (2, -2), (-2, 2)], zone=4)
+    # a zone 1 bow-tie beside it: triangles above and below (2, 0), convex hull the
+    # rectangle 1.5 <= x <= 2.5, |y| <= 1, whose point nearest the dipole is (1.5, 0)
+    side = room("w", [(1.5, -1), (2.5, -1), (1.5, 1), (2.5, 1)], zone=1)
+    site = equator_site([tie, side])
+    res = check_site(site, EQ_SCENE, spacing=0.05)
+    (acc,) = res.access
+    # the uncovered part is the two wedges |y| > |x| of the disc: half its area
+    assert acc.uncovered_area_m2 == pytest.approx(np.pi * R0**2 / 2, rel=0.02)
+    # the search covers the hull (an upper bound, on the safe side): on the equator
+    # |B| = mu0 m / (4 pi r^3) (Jackson, Classical Electrodynamics, 3rd ed., 1999,
+    # eq. 5.56) at r = 1.5 m
+    w = next(r for r in res.rooms if r.id == "w")
+    assert w.max_T == pytest.approx(mu_0 * M / (4 * np.pi * 1.5**3), rel=1e-3)

@@ -142,25 +142,40 @@ def _room_result(site, room, poly, mx, at, nan_seen, floor_field, region):
     )
 
 
-def _outlines(rooms, polys=None):
+def _outlines(rooms, polys=None, bad=None):
     """The rooms' polygons for the room search (``polys``: :func:`room_polygons`
-    of them, if already built), self-intersecting ones replaced (below)."""
+    of them, if already built; ``bad``: their invalid ones, if known),
+    self-intersecting ones replaced (below)."""
     polys = room_polygons([r.outline for r in rooms]) if polys is None else polys.copy()
-    bad = ~shapely.is_valid(polys)
+    bad = ~shapely.is_valid(polys) if bad is None else bad
     # a self-intersecting outline is checked over its convex hull, which contains
     # it: the maximum found is then an upper bound (on the safe side)
     for i in np.flatnonzero(bad):
         p = shapely.make_valid(polys[i])
         polys[i] = p if isinstance(p, Polygon) else p.convex_hull
-    return list(polys)
+    return polys
+
+
+def _made_valid(polys, bad=None):
+    """``polys`` with each invalid one replaced by ``shapely.make_valid`` of it
+    (for covering: the repaired area, not more)."""
+    bad = ~shapely.is_valid(polys) if bad is None else bad
+    if not bad.any():
+        return polys
+    polys = polys.copy()
+    polys[bad] = shapely.make_valid(polys[bad])
+    return polys
 
 
 def _check_rooms(site, scene, floors):
     """Room results for ``floors``: a sequence of (rooms, floor_field, regions,
     polygons), ``regions`` a dict level -> :func:`level_region`, filled as
-    needed, ``polygons`` the rooms' :func:`room_polygons` or None.  One search
+    needed, ``polygons`` the rooms' :func:`_outlines` or None.  One search
     (:func:`room_maxima`) covers the rooms of every floor."""
-    floors = [(rooms, ff, regions, _outlines(rooms, p)) for rooms, ff, regions, p in floors]
+    floors = [
+        (rooms, ff, regions, _outlines(rooms) if p is None else p)
+        for rooms, ff, regions, p in floors
+    ]
     mx, at, nan_seen = room_maxima(scene, [(polys, ff) for _, ff, _, polys in floors])
     out, k = [], 0
     for rooms, ff, regions, polys in floors:
@@ -233,7 +248,7 @@ def access_boundary(
         :func:`level_region` at ``site.info.access_limit``, if already computed.
     polygons : array of shapely Polygons, optional
         :func:`room_polygons` of the floor's rooms (in the site's order), if
-        already built.
+        already built, with any invalid one made valid (``shapely.make_valid``).
 
     Returns
     -------
@@ -246,13 +261,10 @@ def access_boundary(
         region = level_region(floor_field, limit)
     floor_rooms = [r for r in site.rooms if r.floor == fid]
     if polygons is None:
-        polygons = room_polygons([r.outline for r in floor_rooms])
+        polygons = _made_valid(room_polygons([r.outline for r in floor_rooms]))
     parts = np.empty(0, dtype=object)
     if not region.is_empty:  # (no line on the floor: nothing to contain)
         rooms = polygons[np.array([r.zone in (3, 4) for r in floor_rooms], dtype=bool)]
-        bad = ~shapely.is_valid(rooms)
-        if bad.any():
-            rooms[bad] = shapely.make_valid(rooms[bad])
         rest = region.difference(shapely.union_all(rooms)) if len(rooms) else region
         parts = shapely.get_parts(rest)
         parts = parts[(shapely.get_type_id(parts) == 3) & (shapely.area(parts) > 0)]
@@ -353,34 +365,37 @@ def check_site(
     number = {fl.id: i for i, fl in enumerate(site.floors, start=1)}
     every = room_polygons([r.outline for r in site.rooms])  # once for all floors
     widths = room_widths(every)
-    grids, floor_polys = {}, {}
+    bad = ~shapely.is_valid(every)
+    searched, covering = _outlines(site.rooms, every, bad), _made_valid(every, bad)
+    grids, here = {}, {}
     for fl in site.floors:
-        here = np.array([r.floor == fl.id for r in site.rooms], dtype=bool)
-        floor_polys[fl.id] = every[here]
+        on = here[fl.id] = np.array([r.floor == fl.id for r in site.rooms], dtype=bool)
         try:
             grids[fl.id] = floor_grid(
-                site, fl.id, spacing=spacing, polygons=every[here], widths=widths[here]
+                site, fl.id, spacing=spacing, polygons=every[on], widths=widths[on]
             )
         except SitingError:
             continue  # nothing to grid on this floor
     fields = _map_grids(site, scene, grids, spacing, lambda fid: report("field", number[fid], n))
     floors = [
-        (number[fid], [r for r in site.rooms if r.floor == fid], ff, {}, floor_polys[fid])
-        for fid, ff in fields.items()
+        (fid, [r for r in site.rooms if r.floor == fid], ff, {}) for fid, ff in fields.items()
     ]
     # the plan geometry of every floor in one run, after the field maps (the
     # caches the field evaluation left cold warm up once, not once per floor)
     access = []
-    for _, floor_rooms, ff, regions, polys in floors:
+    for fid, floor_rooms, ff, regions in floors:
         limits = {site.room_limit(r) for r in floor_rooms} - {None}
         # lowest level first: its contour generator serves the higher ones
         regions.update((lev, level_region(ff, lev)) for lev in sorted({access_limit, *limits}))
-        access.append(access_boundary(site, ff, region=regions[access_limit], polygons=polys))
-    results = iter(_check_rooms(site, scene, [f[1:] for f in floors]))
+        cover = covering[here[fid]]
+        access.append(access_boundary(site, ff, region=regions[access_limit], polygons=cover))
+    results = iter(
+        _check_rooms(site, scene, [(r, ff, reg, searched[here[fid]]) for fid, r, ff, reg in floors])
+    )
     rooms = []
-    for i, floor_rooms, *_ in floors:
+    for fid, floor_rooms, *_ in floors:
         rooms += [next(results) for _ in floor_rooms]
-        report("rooms", i, n)
+        report("rooms", number[fid], n)
     equipment = _check_equipment_all(scene, list(site.equipment))
     report("equipment", 1, 1)
     failures = (
