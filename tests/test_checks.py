@@ -317,7 +317,7 @@ def test_rooms_of_all_floors_are_searched_together():
         assert alone.max_T == pytest.approx(r.max_T, rel=1e-12)
         np.testing.assert_allclose(alone.at_m, r.at_m, rtol=0, atol=1e-9)
     # the calls of the three field maps, then as many calls as the longest search
-    from siting.analysis.checks import line_levels
+    from siting.analysis.floormap import line_levels
 
     maps = Counting(scene.scene)
     for fid, ff in res.floor_fields.items():
@@ -359,8 +359,8 @@ def test_automatic_spacing_keeps_the_drawn_line_within_its_tolerance():
     # equatorial circle of radius R0 (Jackson, Classical Electrodynamics, 3rd ed., 1999,
     # eq. 5.56).  Rooms 10 m wide give a first grid of 0.5 m, where the line is off by
     # ~0.1 m; the floor is gridded again finer until the estimate is LINE_TOL
-    from siting.analysis.checks import map_floor
     from siting.analysis.contours import LINE_TOL, level_lines
+    from siting.analysis.floormap import map_floor
 
     c = np.array([0.1, 0.05, 1.0])
     scene = Scene([PointDipole(c, [0.0, 0.0, M], envelope=0.3)])

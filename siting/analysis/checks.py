@@ -47,7 +47,6 @@ source, so that value depends on the grid spacing and only says "over".
 
 from __future__ import annotations
 
-import math
 from collections.abc import Callable
 from dataclasses import dataclass, field
 
@@ -55,9 +54,9 @@ import numpy as np
 import shapely
 from shapely.geometry import MultiPolygon, Polygon
 
-from siting.analysis.band import band_max, band_samples
-from siting.analysis.contours import LINE_TOL, clearance_and_area, level_region, line_error
-from siting.analysis.grid import FloorField, floor_grid, refined, room_polygons, room_widths
+from siting.analysis.contours import clearance_and_area, level_region
+from siting.analysis.floormap import map_grids
+from siting.analysis.grid import FloorField, floor_grid, room_polygons, room_widths
 from siting.analysis.roommax import room_maxima
 from siting.errors import SitingError
 from siting.site.model import Equipment, Room, Site
@@ -279,57 +278,6 @@ def access_boundary(
     )
 
 
-def line_levels(site: Site, floor_id: str) -> tuple[float, ...]:
-    """The levels whose lines matter on a floor [T]: the site's drawn levels, the
-    access limit and the limits of the floor's rooms, ascending."""
-    limits = (site.room_limit(r) for r in site.rooms if r.floor == floor_id)
-    levels = {*site.info.levels, site.info.access_limit, *(v for v in limits if v is not None)}
-    return tuple(sorted(float(v) for v in levels))
-
-
-def map_floor(
-    site: Site, scene, floor_id: str, *, spacing: float | None = None, polygons=None
-) -> FloorField:
-    """The band maximum on a floor's grid (:func:`siting.analysis.band.band_max`,
-    searched between the check heights up to the highest of :func:`line_levels`).
-
-    With ``spacing`` given, on :func:`floor_grid` at that spacing.  Without,
-    :func:`floor_grid`'s automatic spacing is a first pass: when
-    :func:`siting.analysis.contours.line_error` says a line of
-    :func:`line_levels` is off by more than ``LINE_TOL`` there, the floor is
-    gridded again at ``h sqrt(LINE_TOL / error)`` (the error falls as h^2) by
-    :func:`siting.analysis.grid.refined`, and the finer map is returned.
-    ``polygons``: :func:`room_polygons` of the floor's rooms, if already built.
-    Raises SitingError for a floor with nothing to grid.
-    """
-    grid = floor_grid(site, floor_id, spacing=spacing, polygons=polygons)
-    return _map_grids(site, scene, {floor_id: grid}, spacing)[floor_id]
-
-
-def _map_grids(site: Site, scene, grids: dict, spacing: float | None, done=None) -> dict:
-    """:func:`map_floor` for the floors of ``grids`` (id -> first grid), each
-    stage for every floor before the next, so that the plan work between the
-    field calls runs in one go; ``done(floor id)`` is called as each map is
-    finished."""
-    levels = {fid: line_levels(site, fid) for fid in grids}
-    samples = {fid: band_samples(scene, g) for fid, g in grids.items()}
-    kept = dict(grids)
-    if spacing is None:
-        # the spacing is judged on the check heights alone; a grid that is replaced
-        # is not searched between them
-        for fid, grid in grids.items():
-            err = line_error(band_max(scene, grid, refine=False, samples=samples[fid]), levels[fid])
-            if err > LINE_TOL:
-                kept[fid] = refined(grid, grid.spacing * math.sqrt(LINE_TOL / err))
-    out = {}
-    for fid, g in kept.items():
-        first = samples[fid] if g is grids[fid] else None
-        out[fid] = band_max(scene, g, ceiling=levels[fid][-1], samples=first)
-        if done is not None:
-            done(fid)
-    return out
-
-
 def check_site(
     site: Site,
     scene,
@@ -347,7 +295,7 @@ def check_site(
         The site's field model (e.g. ``siting.site.build.build_scene(site)``).
     spacing : float, optional
         Grid spacing [m] for every floor (default: chosen per floor by
-        :func:`map_floor` from the rooms and the accuracy of the lines).
+        :func:`siting.analysis.floormap.map_floor` from the rooms and the accuracy of the lines).
     progress : callable(step, i, n), optional
         Called after each step: ``("field", i, n)`` and ``("rooms", i, n)``
         per floor (i = 1..n floors), then ``("equipment", 1, 1)``.
@@ -376,7 +324,7 @@ def check_site(
             )
         except SitingError:
             continue  # nothing to grid on this floor
-    fields = _map_grids(site, scene, grids, spacing, lambda fid: report("field", number[fid], n))
+    fields = map_grids(site, scene, grids, spacing, lambda fid: report("field", number[fid], n))
     floors = [
         (fid, [r for r in site.rooms if r.floor == fid], ff, {}) for fid, ff in fields.items()
     ]

@@ -18,7 +18,7 @@ Grid extent and spacing (the defaults of :func:`floor_grid`):
   honoured exactly and not capped.
 
 The contour levels enter through :func:`refined`:
-:func:`siting.analysis.checks.map_floor` grids a floor at this spacing
+:func:`siting.analysis.floormap.map_floor` grids a floor at this spacing
 first and, when the isogauss lines there are estimated to be off by more
 than ``siting.analysis.contours.LINE_TOL``, again over the same extent at
 the spacing that brings them within it (at least 0.05 m, within the cap).
