@@ -19,14 +19,16 @@ Minimization without Derivatives*, 1973, ch. 5; chapter from memory):
   ``Z_TOL / 2`` to the best point.
 
 All nodes move together, one field call per step over the nodes not yet
-finished.  A node finishes when its bracket is shorter than ``Z_TOL`` (the
+finished; between calls one compiled pass (:func:`_step`) takes each node's
+trial value, decides whether it has finished, proposes its next trial and
+packs the unfinished nodes with their state, so the bookkeeping reads and
+writes memory in order.  A node finishes when its bracket is shorter than ``Z_TOL`` (the
 value is then low by at most about (Z_TOL / w)^2 / 2 for a peak of width w:
 1e-4 at w = 0.1 m), when the parabola through its bracket promised, and its
 vertex gave, a gain below ``RTOL`` of its value (a broad, flat maximum), when
 its value and its neighbours' reach the ``ceiling``, or after ``MAX_Z_STEPS``
-steps.  The search
-is local: a second, separate peak within the band away from the best check
-height is not looked for.
+steps.  The search is local: a second, separate peak within the band away
+from the best check height is not looked for.
 """
 
 from __future__ import annotations
