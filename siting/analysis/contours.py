@@ -126,23 +126,18 @@ def _as_multipolygon(geom) -> MultiPolygon:
     return MultiPolygon(parts)
 
 
-def _polygons(points, offsets) -> np.ndarray:
+def _polygons(points, offsets) -> list:
     """Shapely Polygons from contourpy's ``OuterOffset`` output (per polygon, its
-    points and the offsets of its rings, the outer one first), in a few
-    vectorised calls; rings of fewer than 4 points are dropped."""
-    if not len(points):
-        return np.empty(0, dtype=object)
-    lengths = np.concatenate([np.diff(off) for off in offsets])
-    poly_of_ring = np.repeat(np.arange(len(offsets)), [len(off) - 1 for off in offsets])
-    ring_of_point = np.repeat(np.arange(lengths.size), lengths)
-    keep = lengths >= 4
-    if not keep.any():
-        return np.empty(0, dtype=object)
-    on = keep[ring_of_point]
-    ring_index = (np.cumsum(keep) - 1)[ring_of_point[on]]
-    rings = shapely.linearrings(np.concatenate(points)[on], indices=ring_index)
-    _, poly_index = np.unique(poly_of_ring[keep], return_inverse=True)
-    return shapely.polygons(rings, indices=poly_index)
+    points and the offsets of its rings, the outer one first); rings of fewer
+    than 4 points are dropped.  (A loop: a floor's region has few polygons, and
+    shapely's vectorised constructors cost more in set-up than they save.)"""
+    polys = []
+    for pts, off in zip(points, offsets, strict=True):
+        rings = [pts[off[i] : off[i + 1]] for i in range(len(off) - 1)]
+        rings = [r for r in rings if len(r) >= 4]
+        if rings:
+            polys.append(Polygon(rings[0], rings[1:]))
+    return polys
 
 
 def level_region(floor_field: FloorField, level: float) -> MultiPolygon:
