@@ -180,6 +180,16 @@ def test_clearance_of_rectangles_from_a_disc():
     depth = -clearance(box(-2, -2, 2, 2), disc, tol=tol)
     assert 1.0 - 1e-5 <= depth <= 1.0 + tol
     assert clearance(box(0, 0, 1, 1), Polygon(), tol=tol) == np.inf
+    # many rooms at once: the same margins, and the overlap area of the covering
+    # rectangle is the disc's (pi r^2 for the 1024-gon up to 6e-6 relative)
+    from siting.analysis.contours import clearances_and_areas
+
+    rooms = [box(2.0, -1.0, 3.0, 1.0), box(0.4, -0.2, 3.0, 0.2), box(-2, -2, 2, 2)]
+    margins, areas = clearances_and_areas(rooms, disc, tol=tol)
+    assert margins[0] == pytest.approx(1.0, abs=1e-4) and areas[0] == 0.0
+    assert -0.6 - tol <= margins[1] <= -0.6 + 1e-5
+    assert -1.0 - tol <= margins[2] <= -1.0 + 1e-5
+    assert areas[2] == pytest.approx(np.pi, rel=1e-5)
 
 
 def test_depth_bounds_a_dense_sampling_of_random_overlaps():

@@ -54,7 +54,7 @@ import numpy as np
 import shapely
 from shapely.geometry import MultiPolygon, Polygon
 
-from siting.analysis.contours import clearance_and_area, level_region
+from siting.analysis.contours import clearances_and_areas, level_region
 from siting.analysis.floormap import map_grids
 from siting.analysis.grid import FloorField, floor_grid, room_polygons, room_widths
 from siting.analysis.roommax import room_maxima
@@ -116,15 +116,15 @@ class SiteResult:
     failures: int = 0
 
 
-def _room_result(site, room, poly, mx, at, nan_seen, floor_field, region):
+def _room_result(site, room, mx, at, nan_seen, margin, area):
+    """The result of a room from its search (mx, at, nan_seen) and, with a limit,
+    its :func:`~siting.analysis.contours.clearance_and_area` from its region."""
     limit = site.room_limit(room)
-    margin, area = None, 0.0
     if limit is None:
-        status = "info"
+        status, margin, area = "info", None, 0.0
     else:
         status = "fail" if (nan_seen or not mx < limit) else "pass"
-        margin, area = clearance_and_area(poly, region)
-        area = area if margin < 0 else 0.0
+        margin, area = float(margin), float(area) if margin < 0 else 0.0
         if (status == "fail") != (margin < 0):
             margin = 0.0
     return RoomResult(
@@ -178,14 +178,15 @@ def _check_rooms(site, scene, floors):
     mx, at, nan_seen = room_maxima(scene, [(polys, ff) for _, ff, _, polys in floors])
     out, k = [], 0
     for rooms, ff, regions, polys in floors:
-        for room, poly in zip(rooms, polys, strict=True):
-            limit = site.room_limit(room)
-            region = None
-            if limit is not None:
-                if limit not in regions:
-                    regions[limit] = level_region(ff, limit)
-                region = regions[limit]
-            out.append(_room_result(site, room, poly, mx[k], at[k], nan_seen[k], ff, region))
+        limits = [site.room_limit(r) for r in rooms]
+        margin, area = np.zeros(len(rooms)), np.zeros(len(rooms))
+        for limit in {v for v in limits if v is not None}:
+            if limit not in regions:
+                regions[limit] = level_region(ff, limit)
+            mine = np.array([v == limit for v in limits], dtype=bool)
+            margin[mine], area[mine] = clearances_and_areas(polys[mine], regions[limit])
+        for j, room in enumerate(rooms):
+            out.append(_room_result(site, room, mx[k], at[k], nan_seen[k], margin[j], area[j]))
             k += 1
     return out
 
