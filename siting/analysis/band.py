@@ -81,7 +81,7 @@ def _brackets(mags, zs, bx, bf, lo, lo_f, hi, hi_f, invalid, valid_any):
         hi[i], hi_f[i] = zs[jh], mags[jh, i]
 
 
-@numba.njit(cache=True)
+@numba.njit(cache=True, inline="always")
 def _propose(xi, fxi, ai, fai, bi, fbi, last, z_tol, rtol):
     """Next trial height inside the bracket (ai, bi) around the best height xi
     (values f..), and whether the parabola through the bracket promises a gain
@@ -172,7 +172,7 @@ def _finish(x, fx, valid_any):
             x[i], fx[i] = np.nan, np.nan
 
 
-@numba.njit(cache=True)
+@numba.njit(cache=True, inline="always")
 def _update(u, f, flat, xi, fxi, ai, fai, bi, fbi, rtol, z_tol):
     """The bracket (ai, bi) around xi shrunk with a trial (height u, value f not
     NaN), and whether it has converged: short, or the flat parabola held, or the

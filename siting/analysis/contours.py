@@ -292,7 +292,7 @@ def line_error(floor_field: FloorField, levels) -> float:
     return float(_line_error(f, float(np.diff(g.x).mean()), float(np.diff(g.y).mean()), lev))
 
 
-@numba.njit(cache=True)
+@numba.njit(cache=True, inline="always")
 def _node_error(f, hx, hy, j, i):
     """h^2 max(|f_xx|, |f_yy|) / (8 |grad f|) at node (j, i) by central differences
     (NaN at the border or next to an invalid node)."""

@@ -54,7 +54,7 @@ def _segments(geom) -> np.ndarray:
     return np.ascontiguousarray(np.column_stack([a, v, inv]))
 
 
-@numba.njit(cache=True)
+@numba.njit(cache=True, inline="always")
 def _nearest(px, py, seg):
     """Distance from (px, py) to the nearest of the segments ``seg`` (s, 5), and
     the nearest point (x, y)."""
@@ -69,13 +69,13 @@ def _nearest(px, py, seg):
     return math.sqrt(best), bx, by
 
 
-@numba.njit(cache=True)
+@numba.njit(cache=True, inline="always")
 def _distance(px, py, seg):
     """Distance from (px, py) to the nearest of the segments ``seg`` (s, 5)."""
     return _nearest(px, py, seg)[0]
 
 
-@numba.njit(cache=True)
+@numba.njit(cache=True, inline="always")
 def _inside(px, py, seg):
     """Even-odd rule: whether (px, py) is inside the rings made of ``seg``."""
     inside = False
