@@ -127,7 +127,7 @@ def _propose(xi, fxi, ai, fai, bi, fbi, last, z_tol, rtol):
     return u, flat
 
 
-@numba.njit(cache=True)
+@numba.njit(cache=True, inline="always")
 def _surrounded(fx, invalid, nx, ceiling, i):
     """Whether node i's eight neighbours (those on the grid) are at or above the
     ceiling or undefined: then no line at or below the ceiling crosses a cell
