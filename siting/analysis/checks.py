@@ -166,16 +166,21 @@ def _made_valid(polys, bad=None):
     return polys
 
 
-def _check_rooms(site, scene, floors):
-    """Room results for ``floors``: a sequence of (rooms, floor_field, regions,
-    polygons), ``regions`` a dict level -> :func:`level_region`, filled as
-    needed, ``polygons`` the rooms' :func:`_outlines` or None.  One search
-    (:func:`room_maxima`) covers the rooms of every floor."""
-    floors = [
-        (rooms, ff, regions, _outlines(rooms) if p is None else p)
-        for rooms, ff, regions, p in floors
-    ]
-    mx, at, nan_seen = room_maxima(scene, [(polys, ff) for _, ff, _, polys in floors])
+def _search_rooms(scene, floors):
+    """The maxima of the rooms of ``floors``, a sequence of (rooms, floor_field,
+    polygons), ``polygons`` the rooms' :func:`_outlines` or None: one search
+    (:func:`room_maxima`) for every floor.  Returns (max, at, nan_seen) per room
+    and the polygons used per floor."""
+    polys = [_outlines(rooms) if p is None else p for rooms, _, p in floors]
+    found = room_maxima(scene, [(p, ff) for (_, ff, _), p in zip(floors, polys, strict=True)])
+    return found, polys
+
+
+def _room_results(site, floors, found):
+    """Room results from :func:`_search_rooms`'s ``found`` for ``floors``: a
+    sequence of (rooms, floor_field, regions, polygons), ``regions`` a dict
+    level -> :func:`level_region`, filled as needed."""
+    mx, at, nan_seen = found
     out, k = [], 0
     for rooms, ff, regions, polys in floors:
         limits = [site.room_limit(r) for r in rooms]
@@ -214,7 +219,8 @@ def check_room(site: Site, scene, room: Room, floor_field: FloorField) -> RoomRe
             f"room {room.id!r} is on floor {room.floor!r}, "
             f"the field map on {floor_field.grid.floor!r}"
         )
-    return _check_rooms(site, scene, [([room], floor_field, {}, None)])[0]
+    found, (polys,) = _search_rooms(scene, [([room], floor_field, None)])
+    return _room_results(site, [([room], floor_field, {}, polys)], found)[0]
 
 
 def _check_equipment_all(scene, items):
@@ -329,8 +335,11 @@ def check_site(
     floors = [
         (fid, [r for r in site.rooms if r.floor == fid], ff, {}) for fid, ff in fields.items()
     ]
-    # the plan geometry of every floor in one run, after the field maps (the
-    # caches the field evaluation left cold warm up once, not once per floor)
+    # every field call first (the maps above, the room search, the equipment),
+    # then the plan geometry of every floor in one run: the caches the field
+    # evaluation leaves cold warm up once, not once per floor or per stage
+    found, polys = _search_rooms(scene, [(r, ff, searched[here[fid]]) for fid, r, ff, _ in floors])
+    equipment = _check_equipment_all(scene, list(site.equipment))
     access = []
     for fid, floor_rooms, ff, regions in floors:
         limits = {site.room_limit(r) for r in floor_rooms} - {None}
@@ -338,14 +347,12 @@ def check_site(
         regions.update((lev, level_region(ff, lev)) for lev in sorted({access_limit, *limits}))
         cover = covering[here[fid]]
         access.append(access_boundary(site, ff, region=regions[access_limit], polygons=cover))
-    results = iter(
-        _check_rooms(site, scene, [(r, ff, reg, searched[here[fid]]) for fid, r, ff, reg in floors])
-    )
+    by_floor = [(r, ff, reg, p) for (_, r, ff, reg), p in zip(floors, polys, strict=True)]
+    results = iter(_room_results(site, by_floor, found))
     rooms = []
     for fid, floor_rooms, *_ in floors:
         rooms += [next(results) for _ in floor_rooms]
         report("rooms", number[fid], n)
-    equipment = _check_equipment_all(scene, list(site.equipment))
     report("equipment", 1, 1)
     failures = (
         sum(r.status == "fail" for r in rooms)
