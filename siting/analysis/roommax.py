@@ -218,6 +218,49 @@ def _wall_starts(scene, walls, groups, first_room, nan_seen):
     return np.column_stack([s[sel], wz[sel]]), room[sel]
 
 
+@numba.njit(cache=True)
+def _search_inputs(fs, ws, rooms, spacing, band):
+    """Starts, base steps, bounds and kinds for :func:`siting.analysis.roomsearch.search`:
+    face starts ``fs`` (x, y, z) take steps of their floor's grid spacing in x
+    and y and stay on their face; wall starts ``ws`` (arc length, z) take the
+    grid spacing along the wall and half the band in z, z bounded to the band
+    (``spacing``, ``band`` per room)."""
+    nf, n = fs.shape[0], fs.shape[0] + ws.shape[0]
+    x0, base = np.empty((n, 2)), np.empty((n, 2))
+    lo, hi = np.full((n, 2), -np.inf), np.full((n, 2), np.inf)
+    face, face_z = np.zeros(n, dtype=np.bool_), np.full(n, np.nan)
+    for i in range(n):
+        r = rooms[i]
+        h = spacing[r]
+        if i < nf:
+            x0[i, 0], x0[i, 1], face[i], face_z[i] = fs[i, 0], fs[i, 1], True, fs[i, 2]
+            base[i, 0], base[i, 1] = h, h
+        else:
+            x0[i, 0], x0[i, 1] = ws[i - nf, 0], ws[i - nf, 1]
+            base[i, 0], base[i, 1] = h, (band[r, 1] - band[r, 0]) / 2
+            lo[i, 1], hi[i, 1] = band[r, 0], band[r, 1]
+    return x0, base, lo, hi, face, face_z
+
+
+@numba.njit(cache=True)
+def _collect(rooms, fu, xyz, bad, node_best, node_at, best, at, nan_seen):
+    """Each room's best search result (and whether a trial was undefined), or its
+    best grid node where that is larger (a source inside the prism: the maximum
+    need not be on the boundary); NaN where nothing valid was found."""
+    for i in range(rooms.size):
+        r = rooms[i]
+        nan_seen[r] |= bad[i]
+        if fu[i] > best[r]:
+            best[r] = fu[i]
+            at[r, 0], at[r, 1], at[r, 2] = xyz[i, 0], xyz[i, 1], xyz[i, 2]
+    for r in range(best.size):
+        if node_best[r] > best[r]:
+            best[r] = node_best[r]
+            at[r, 0], at[r, 1], at[r, 2] = node_at[r, 0], node_at[r, 1], node_at[r, 2]
+        if not math.isfinite(best[r]):
+            best[r] = np.nan
+
+
 def room_maxima(scene, groups):
     """Max |B| over the prisms of many rooms, on one or more floors.
 
@@ -267,25 +310,10 @@ def room_maxima(scene, groups):
     ws, wroom = _wall_starts(scene, walls, groups, first_room, nan_seen)
 
     # one search over both kinds and every floor: rows [0, nf) faces, [nf, n) walls
-    nf = len(fs)
-    x0 = np.concatenate([fs[:, :2], ws])
-    rooms = np.concatenate([froom, wroom])
-    h = np.array([ff.grid.spacing for _, ff in groups])[group_of[rooms]]
-    band = np.array([ff.grid.band for _, ff in groups])[group_of[rooms]]
-    base = np.column_stack([h, h])
-    base[nf:, 1] = (band[nf:, 1] - band[nf:, 0]) / 2
-    lo = np.full_like(x0, -np.inf)
-    hi = np.full_like(x0, np.inf)
-    lo[nf:, 1], hi[nf:, 1] = band[nf:, 0], band[nf:, 1]
-    face = np.arange(len(x0)) < nf
-    face_z = np.concatenate([fs[:, 2], np.full(len(ws), np.nan)])
+    spacing = np.array([ff.grid.spacing for _, ff in groups])[group_of]
+    band = np.array([ff.grid.band for _, ff in groups])[group_of]
+    rooms = np.concatenate([froom, wroom]).astype(np.int64)
+    x0, base, lo, hi, face, face_z = _search_inputs(fs, ws, rooms, spacing, band)
     _, xyz, fu, bad = search(scene.magnitude, walls, face, rooms, face_z, x0, base, lo, hi)
-    np.logical_or.at(nan_seen, rooms, bad)
-    order = np.argsort(fu)  # ascending: the last write per room is its best
-    best[rooms[order]] = fu[order]
-    at[rooms[order]] = xyz[order]
-    # a source inside the prism (maximum not on the boundary): keep the grid node
-    inner = node_best > best
-    best[inner], at[inner] = node_best[inner], node_at[inner]
-    best[~np.isfinite(best)] = np.nan
+    _collect(rooms, fu, xyz, bad, node_best, node_at, best, at, nan_seen)
     return best, at, nan_seen
