@@ -111,6 +111,33 @@ def _room_peaks(outl, rooms, box, x, y, bmax, invalid, n_top, top_val, top_i, to
                     top_val[q, k], top_i[q, k], top_j[q, k] = v, i - 1 + ix0, j - 1 + iy0
 
 
+@numba.njit(cache=True)
+def _peak_starts(val, ti, tj, x, y, zmax, z0, z1, node_best, node_at):
+    """Face starts from the peaks :func:`_room_peaks` kept: (x, y, nearer band face)
+    and room per peak, in room order; each room's largest peak into
+    ``node_best`` / ``node_at`` (with the height of its band maximum)."""
+    nr, m = val.shape
+    n = 0
+    for q in range(nr):
+        for t in range(m):
+            n += val[q, t] > -np.inf
+    pts, room = np.empty((n, 3)), np.empty(n, dtype=np.int64)
+    k = 0
+    for q in range(nr):
+        for t in range(m):
+            if not val[q, t] > -np.inf:
+                continue
+            i, j = ti[q, t], tj[q, t]
+            z = zmax[j, i]
+            pts[k, 0], pts[k, 1], pts[k, 2] = x[i], y[j], z0 if z - z0 <= z1 - z else z1
+            room[k] = q
+            k += 1
+            if t == 0:
+                node_best[q] = val[q, 0]
+                node_at[q, 0], node_at[q, 1], node_at[q, 2] = x[i], y[j], z
+    return pts, room
+
+
 def _face_starts(geoms, outlines, first, floor_field, nan_seen, node_best, node_at):
     """Starts (x, y, z) and rooms for the face search on one floor: the local
     maxima of the band maximum among each room's nodes, put on the nearer band face.
@@ -142,15 +169,9 @@ def _face_starts(geoms, outlines, first, floor_field, nan_seen, node_best, node_
     _room_peaks(outlines.arrays, rooms, box, g.x, g.y, floor_field.bmax, floor_field.invalid,
                 N_FACE_STARTS, val, ti, tj, flag)
     nan_seen |= flag
+    pts, room = _peak_starts(val, ti, tj, g.x, g.y, floor_field.zmax, z0, z1, node_best, node_at)
+    starts, room_of = [pts], [room]
     have = val[:, 0] > -np.inf
-    node_best[have] = val[have, 0]
-    node_at[have] = np.column_stack(
-        [g.x[ti[have, 0]], g.y[tj[have, 0]], floor_field.zmax[tj[have, 0], ti[have, 0]]]
-    )
-    keep = val > -np.inf
-    zs = floor_field.zmax[tj[keep], ti[keep]]
-    starts = [np.column_stack([g.x[ti[keep]], g.y[tj[keep]], np.where(zs - z0 <= z1 - zs, z0, z1)])]
-    room_of = [np.nonzero(keep)[0]]
     # a room narrower than the grid: start from a point inside, on both faces
     for k in np.flatnonzero(~have):
         q = geoms[k].representative_point()
