@@ -289,7 +289,9 @@ def line_error(floor_field: FloorField, levels) -> float:
     if f.shape[0] < 3 or f.shape[1] < 3:
         return 0.0
     lev = np.array(sorted(_check_level(v) for v in levels), dtype=np.float64)
-    return float(_line_error(f, float(np.diff(g.x).mean()), float(np.diff(g.y).mean()), lev))
+    hx = float(g.x[-1] - g.x[0]) / (g.x.size - 1)  # the mean node spacings
+    hy = float(g.y[-1] - g.y[0]) / (g.y.size - 1)
+    return float(_line_error(f, hx, hy, lev))
 
 
 @numba.njit(cache=True, inline="always")
