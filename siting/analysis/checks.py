@@ -268,17 +268,19 @@ def access_boundary(
     floor_rooms = [r for r in site.rooms if r.floor == fid]
     if polygons is None:
         polygons = _made_valid(room_polygons([r.outline for r in floor_rooms]))
-    parts = np.empty(0, dtype=object)
+    parts, areas = np.empty(0, dtype=object), np.zeros(0)
     if not region.is_empty:  # (no line on the floor: nothing to contain)
         rooms = polygons[np.array([r.zone in (3, 4) for r in floor_rooms], dtype=bool)]
         rest = region.difference(shapely.union_all(rooms)) if len(rooms) else region
         parts = shapely.get_parts(rest)
-        parts = parts[(shapely.get_type_id(parts) == 3) & (shapely.area(parts) > 0)]
+        areas = shapely.area(parts)
+        keep = (shapely.get_type_id(parts) == 3) & (areas > 0)
+        parts, areas = parts[keep], areas[keep]
     uncovered = shapely.multipolygons(parts)
-    area = float(uncovered.area)
+    area = float(areas.sum())
     point = None
     if len(parts):
-        q = parts[np.argmax(shapely.area(parts))].representative_point()
+        q = parts[np.argmax(areas)].representative_point()
         point = np.array([q.x, q.y])
     return AccessResult(
         fid, limit, area < CONTAINED_TOL, uncovered, area, point, float(region.area)
