@@ -143,12 +143,14 @@ def _surrounded(fx, invalid, nx, ceiling, i):
 
 
 @numba.njit(cache=True)
-def _active(x, fx, a, fa, b, fb, invalid, valid_any, gx, gy, ceiling, act, state):
-    """The nodes to search, into ``act``, with their search state (x, f(x), a,
-    f(a), b, f(b), previous bracket length, plan x, plan y; node i at
-    ``gx[i % nx], gy[i // nx]``) into the rows of ``state``; returns their
-    count: nodes valid at every check height and not stopped at the ceiling
-    already."""
+def _start(
+    x, fx, a, fa, b, fb, invalid, valid_any, gx, gy, ceiling, z_tol, rtol, act, state, pts, flat
+):
+    """The nodes to search and their first trials: ``act``, ``state`` (x, f(x),
+    a, f(a), b, f(b), bracket length, plan x, plan y; node i at
+    ``gx[i % nx], gy[i // nx]``), ``pts`` and ``flat`` as :func:`_step` leaves
+    them; returns their count.  Searched are the nodes valid at every check
+    height and not stopped at the ceiling already."""
     nx = gx.size
     k = 0
     for i in range(fx.size):
@@ -156,10 +158,13 @@ def _active(x, fx, a, fa, b, fb, invalid, valid_any, gx, gy, ceiling, act, state
             continue
         if fx[i] >= ceiling and _surrounded(fx, invalid, nx, ceiling, i):
             continue
-        act[k] = i
+        u, fl = _propose(x[i], fx[i], a[i], fa[i], b[i], fb[i], np.inf, z_tol, rtol)
+        px, py = gx[i % nx], gy[i // nx]
+        act[k], flat[k] = i, fl
         state[k, 0], state[k, 1], state[k, 2], state[k, 3] = x[i], fx[i], a[i], fa[i]
-        state[k, 4], state[k, 5], state[k, 6] = b[i], fb[i], np.inf
-        state[k, 7], state[k, 8] = gx[i % nx], gy[i // nx]
+        state[k, 4], state[k, 5], state[k, 6] = b[i], fb[i], b[i] - a[i]
+        state[k, 7], state[k, 8] = px, py
+        pts[k, 0], pts[k, 1], pts[k, 2] = px, py, u
         k += 1
     return k
 
@@ -196,34 +201,31 @@ def _update(u, f, flat, xi, fxi, ai, fai, bi, fbi, rtol, z_tol):
 
 
 @numba.njit(cache=True)
-def _step(
-    n_act, first, act, state, pts, fu, flat, x, fx, z_tol, rtol, ceiling, invalid, nx
-):
+def _step(n_act, act, state, pts, fu, flat, x, fx, z_tol, rtol, ceiling, invalid, nx):
     """One step of the search over the active nodes ``act[:n_act]`` (their
-    state in the rows of ``state``, as :func:`_active` lays it out): unless
-    ``first``, each takes its trial's value ``fu[m]`` (:func:`_update`; the
-    node's best height and value are written through to ``x`` and ``fx``) and
+    state in the rows of ``state``, as :func:`_start` lays it out): each takes
+    its trial's value ``fu[m]`` (:func:`_update`; the node's best height and
+    value are written through to ``x`` and ``fx``) and
     finishes when converged, undefined at the trial or at the ceiling; the
     others get their next trial (:func:`_propose`) and are packed, in order,
     into ``act``, ``state``, ``pts`` and ``flat``.  Returns their count.
-    ``nx`` nodes make a row of the grid.  (The state travels with the packed list so that every pass
-    reads and writes it in order.)"""
+    ``nx`` nodes make a row of the grid.  (The state travels with the packed
+    list so that every pass reads and writes it in order.)"""
     k = 0
     for m in range(n_act):
         i = act[m]
         xi, fxi, ai, fai = state[m, 0], state[m, 1], state[m, 2], state[m, 3]
         bi, fbi, last = state[m, 4], state[m, 5], state[m, 6]
-        if not first:
-            f = fu[m]
-            if math.isnan(f):  # the model is undefined inside the band here
-                invalid[i] = True
-                continue
-            done, xi, fxi, ai, fai, bi, fbi = _update(
-                pts[m, 2], f, flat[m], xi, fxi, ai, fai, bi, fbi, rtol, z_tol
-            )
-            x[i], fx[i] = xi, fxi
-            if done or (fxi >= ceiling and _surrounded(fx, invalid, nx, ceiling, i)):
-                continue
+        f = fu[m]
+        if math.isnan(f):  # the model is undefined inside the band here
+            invalid[i] = True
+            continue
+        done, xi, fxi, ai, fai, bi, fbi = _update(
+            pts[m, 2], f, flat[m], xi, fxi, ai, fai, bi, fbi, rtol, z_tol
+        )
+        x[i], fx[i] = xi, fxi
+        if done or (fxi >= ceiling and _surrounded(fx, invalid, nx, ceiling, i)):
+            continue
         u, fl = _propose(xi, fxi, ai, fai, bi, fbi, last, z_tol, rtol)
         state[k, 0], state[k, 1], state[k, 2], state[k, 3] = xi, fxi, ai, fai
         state[k, 4], state[k, 5], state[k, 6] = bi, fbi, bi - ai
@@ -293,13 +295,13 @@ def band_max(
     _brackets(mags, zs, x, fx, a, fa, b, fb, invalid, valid_any)
     if refine and zs.size > 1:
         act, state = np.empty(n, dtype=np.int64), np.empty((n, 9))
-        k = _active(x, fx, a, fa, b, fb, invalid, valid_any, grid.x, grid.y, ceiling, act, state)
-        pts, flat, fu = np.empty((k, 3)), np.empty(k, dtype=np.bool_), np.empty(0)
-        for it in range(MAX_Z_STEPS + 1):
-            k = _step(k, it == 0, act, state, pts, fu, flat, x, fx,
-                      Z_TOL, RTOL, ceiling, invalid, nx)
-            if k == 0 or it == MAX_Z_STEPS:
+        pts, flat = np.empty((n, 3)), np.empty(n, dtype=np.bool_)
+        k = _start(x, fx, a, fa, b, fb, invalid, valid_any, grid.x, grid.y, ceiling,
+                   Z_TOL, RTOL, act, state, pts, flat)
+        for _ in range(MAX_Z_STEPS):
+            if k == 0:
                 break
             fu = np.asarray(scene.magnitude(pts[:k]), dtype=np.float64)
+            k = _step(k, act, state, pts, fu, flat, x, fx, Z_TOL, RTOL, ceiling, invalid, nx)
     _finish(x, fx, valid_any)
     return FloorField(grid, fx.reshape(ny, nx), invalid.reshape(ny, nx), x.reshape(ny, nx))
