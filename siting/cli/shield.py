@@ -79,7 +79,8 @@ def shield(
     from siting.shielding import sheet_forces
     from siting.site.build import base_sources
     from siting.site.loader import load_site
-    from siting.site.steel import limit_points, magnet_results, plate_meshes, size_group
+    from siting.site.steel import magnet_results, plate_meshes, size_group
+    from siting.site.steel_targets import limit_points
 
     try:
         site = load_site(site_file)

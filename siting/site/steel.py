@@ -23,13 +23,10 @@ Rules
   common stock thickness (fixed-thickness plates present at theirs), take the
   smallest stock thickness (``[site] stock_thicknesses``) for which every
   limit point is at or below its limit and the peak flux density in the steel
-  is within ``[site] steel_limit``.  The limit points (:func:`limit_points`)
-  are a quick check without steel: the rooms with a limit on the auto plates'
-  floors are sampled (interior nodes at :data:`SAMPLE_SPACING` and their
-  outline, at every check height); a room fails when a sample exceeds its
-  limit, and its samples above half the limit (at most :data:`MAX_TARGETS`
-  per room, the largest kept) become limit points; equipment on those floors
-  that fails adds its point.  The limit points are a sample, and the grid
+  is within ``[site] steel_limit``.  The limit points
+  (:func:`siting.site.steel_targets.limit_points`) are a quick check without
+  steel on the auto plates' floors: samples of the rooms over their limit and
+  failing equipment.  The limit points are a sample, and the grid
   behind the access check interpolates across walls, so a thickness that meets
   them is then verified by the full check (:func:`siting.analysis.checks.check_site`)
   with the steel: every room, equipment item and access boundary on the group's
@@ -41,7 +38,6 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 import numpy as np
-import shapely
 from scipy.constants import mu_0
 
 from siting.analysis.checks import check_site
@@ -64,6 +60,7 @@ from siting.shielding.refine import MeshChoice, choose_meshes, probe_points
 from siting.shielding.sizing import Candidate, Sizing
 from siting.site import model
 from siting.site.build import NamedSource
+from siting.site.steel_targets import Targets, limit_points
 
 #: Panel size of a plate meshed uniformly without the convergence test [m].
 MAX_PANEL = 0.25
@@ -75,10 +72,6 @@ AUTO_PANELS = 1500
 PROBE_OFFSET = 0.3
 #: Panels allowed in one solve (the dense operator needs (2N)^2 doubles).
 MAX_PANELS = 3000
-#: Spacing of the quick check's room samples [m].
-SAMPLE_SPACING = 0.25
-#: Limit points kept per room.
-MAX_TARGETS = 300
 
 
 @dataclass(frozen=True)
@@ -110,26 +103,6 @@ class MagnetResult:
     shift_ppm: float
     peak_to_peak_ppm: float
     diameter: float
-
-
-@dataclass(frozen=True)
-class Targets:
-    """Limit points: ``labels`` (n,) room or equipment id, ``points`` (n, 3) [m],
-    ``limits`` (n,) [T], ``bare`` (n,) |B| without steel [T]."""
-
-    labels: tuple
-    points: np.ndarray
-    limits: np.ndarray
-    bare: np.ndarray
-
-    @property
-    def names(self) -> tuple:
-        return tuple(dict.fromkeys(self.labels))
-
-    def worst(self, b) -> dict:
-        """Largest |B| per name for |B| ``b`` (n,) at the points."""
-        lab = np.array(self.labels, dtype=object)
-        return {n: float(np.max(np.asarray(b)[lab == n])) for n in self.names}
 
 
 @dataclass(frozen=True)
@@ -208,70 +181,6 @@ def mesh_choice(site, base, thickness, targets: Targets | None = None) -> MeshCh
                         for p in site.plates],
         [thickness[p.id] for p in site.plates], [plate_material(site, p)[0] for p in site.plates],
         base, pts, limits=lims, tol=MESH_TOL, max_panels=AUTO_PANELS)
-
-
-def _room_samples(site, room, spacing):
-    poly = shapely.Polygon(room.outline)
-    x0, y0, x1, y1 = poly.bounds
-    gx, gy = np.meshgrid(np.arange(x0, x1 + 1e-9, spacing), np.arange(y0, y1 + 1e-9, spacing))
-    xy = np.column_stack([gx.ravel(), gy.ravel()])
-    xy = xy[shapely.covers(poly, shapely.points(xy))]
-    ring = poly.exterior
-    along = np.linspace(0, ring.length, max(8, int(np.ceil(ring.length / spacing))) + 1)
-    xy = np.vstack([xy, shapely.get_coordinates(ring.interpolate(along))])
-    elev = site.floor(room.floor).elevation
-    z = elev + np.asarray(site.info.check_heights)
-    return np.column_stack([np.repeat(xy, len(z), axis=0), np.tile(z, len(xy))])
-
-
-def limit_points(site, base, *, floors=None, names=None, spacing=SAMPLE_SPACING) -> Targets:
-    """Limit points of the rooms and equipment named, or failing without steel on ``floors``.
-
-    Raises
-    ------
-    SitingError
-        For a name that is no room or equipment, or a room without a limit.
-    """
-    rooms = {r.id: r for r in site.rooms}
-    equip = {e.id: e for e in site.equipment}
-    if names is not None:
-        for n in names:
-            if n not in rooms and n not in equip:
-                raise SitingError(f"--target: '{n}' is no room or equipment of the site")
-            if n in rooms and site.room_limit(rooms[n]) is None:
-                raise SitingError(f"--target: room '{n}' (zone {rooms[n].zone}) has no limit")
-    labels, pts, lims, bare = [], [], [], []
-    for r in site.rooms:
-        lim = site.room_limit(r)
-        if lim is None or (names is not None and r.id not in names) or (
-                names is None and r.floor not in floors):
-            continue
-        p = _room_samples(site, r, spacing)
-        b = np.linalg.norm(base.field(p), axis=1)
-        ok = np.isfinite(b)
-        p, b = p[ok], b[ok]
-        if not len(b) or (names is None and b.max() <= lim):
-            continue
-        keep = np.argsort(b)[::-1][:MAX_TARGETS]
-        keep = keep[(b[keep] > 0.5 * lim) | (keep == keep[0])]
-        labels += [r.id] * len(keep)
-        pts.append(p[keep])
-        lims.append(np.full(len(keep), lim))
-        bare.append(b[keep])
-    for e in site.equipment:
-        if (names is not None and e.id not in names) or (names is None and e.floor not in floors):
-            continue
-        b = float(np.linalg.norm(base.field(e.at[None])[0]))
-        if names is None and not b > e.limit:
-            continue
-        labels.append(e.id)
-        pts.append(e.at[None])
-        lims.append([e.limit])
-        bare.append([b])
-    def cat(arrays, shape):
-        return np.concatenate(arrays) if arrays else np.zeros((0, *shape))
-
-    return Targets(tuple(labels), cat(pts, (3,)), cat(lims, ()), cat(bare, ()))
 
 
 def _solve(site, base, meshes, thickness):
