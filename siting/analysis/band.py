@@ -205,10 +205,10 @@ def _step(n_act, act, state, pts, fu, flat, x, fx, z_tol, rtol, ceiling, invalid
     """One step of the search over the active nodes ``act[:n_act]`` (their
     state in the rows of ``state``, as :func:`_start` lays it out): each takes
     its trial's value ``fu[m]`` (:func:`_update`; the node's best height and
-    value are written through to ``x`` and ``fx``) and
-    finishes when converged, undefined at the trial or at the ceiling; the
-    others get their next trial (:func:`_propose`) and are packed, in order,
-    into ``act``, ``state``, ``pts`` and ``flat``.  Returns their count.
+    value are written through to ``x`` and ``fx``) and finishes when converged,
+    undefined at the trial or at the ceiling; the others get their next trial
+    (:func:`_propose`) and are packed, in order, into ``act``, ``state``,
+    ``pts`` and ``flat``.  Returns their count.
     ``nx`` nodes make a row of the grid.  (The state travels with the packed
     list so that every pass reads and writes it in order.)"""
     k = 0

@@ -31,7 +31,7 @@ import shapely
 from contourpy import FillType, LineType
 from shapely.geometry import MultiPolygon, Polygon
 
-from siting.analysis.depth import depth, overlap
+from siting.analysis.depth import depth, overlap, polygonal_part
 from siting.analysis.grid import FloorField
 
 #: Position error allowed to a drawn isogauss line by the automatic spacing [m].
@@ -111,21 +111,6 @@ def _level_crop(bmax, invalid, level):
     return max(j0 - 1, 0), min(j1 + 2, ny), max(i0 - 1, 0), min(i1 + 2, nx)
 
 
-def _as_multipolygon(geom) -> MultiPolygon:
-    """Keep only the polygonal part of a geometry, as a MultiPolygon."""
-    if geom.is_empty:
-        return MultiPolygon()
-    if isinstance(geom, Polygon):
-        return MultiPolygon([geom])
-    if isinstance(geom, MultiPolygon):
-        return geom
-    polys = [p for p in shapely.get_parts(geom) if isinstance(p, Polygon | MultiPolygon)]
-    parts = []
-    for p in polys:
-        parts.extend(shapely.get_parts(p))
-    return MultiPolygon(parts)
-
-
 def _polygons(points, offsets) -> list:
     """Shapely Polygons from contourpy's ``OuterOffset`` output (per polygon, its
     points and the offsets of its rings, the outer one first); rings of fewer
@@ -169,7 +154,7 @@ def level_region(floor_field: FloorField, level: float) -> MultiPolygon:
         return MultiPolygon()
     region = shapely.multipolygons(polys)
     if not region.is_valid:
-        region = _as_multipolygon(shapely.make_valid(region))
+        region = polygonal_part(shapely.make_valid(region))
     return region
 
 

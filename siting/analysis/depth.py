@@ -35,6 +35,7 @@ import math
 import numba
 import numpy as np
 import shapely
+from shapely.geometry import MultiPolygon, Polygon
 
 #: Initial cells per side of the box.
 START_CELLS = 4
@@ -91,7 +92,7 @@ def _inside(px, py, seg):
 def _branch_and_bound(line, rings, verts, x0, y0, side, nx, ny, tol, min_half):
     """Depth of the region bounded by ``rings`` below the segments ``line``
     (module docstring).  Cells start as an nx x ny tiling of side ``side`` from
-    (x0, y0).  Returns (upper bound, lower bound)."""
+    (x0, y0).  Returns the upper bound (module docstring)."""
     lower = -np.inf
     for v in range(verts.shape[0]):
         lower = max(lower, _distance(verts[v, 0], verts[v, 1], line))
@@ -136,15 +137,27 @@ def _branch_and_bound(line, rings, verts, x0, y0, side, nx, ny, tol, min_half):
                         nxt_x[m], nxt_y[m] = cx[c] + sx, cy[c] + sy
                         m += 1
         cx, cy, half = nxt_x, nxt_y, 0.5 * half
-    return max(upper, lower), lower
+    return max(upper, lower)
 
 
-def overlap(polygon, region):
+def polygonal_part(geom) -> MultiPolygon:
+    """Keep only the polygonal part of a geometry, as a MultiPolygon."""
+    if geom.is_empty:
+        return MultiPolygon()
+    if isinstance(geom, Polygon):
+        return MultiPolygon([geom])
+    if isinstance(geom, MultiPolygon):
+        return geom
+    polys = [p for p in shapely.get_parts(geom) if isinstance(p, Polygon | MultiPolygon)]
+    parts = []
+    for p in polys:
+        parts.extend(shapely.get_parts(p))
+    return MultiPolygon(parts)
+
+
+def overlap(polygon, region) -> MultiPolygon:
     """The polygonal part of ``polygon n region`` (lines and points dropped)."""
-    inter = shapely.intersection(polygon, region)
-    if shapely.get_type_id(inter) == 7:  # a collection: keep its polygons
-        inter = shapely.union_all([p for p in shapely.get_parts(inter) if p.geom_type == "Polygon"])
-    return inter
+    return polygonal_part(shapely.intersection(polygon, region))
 
 
 def depth(polygon, region, *, tol: float, inter=None) -> float:
@@ -194,6 +207,6 @@ def depth(polygon, region, *, tol: float, inter=None) -> float:
     gap = np.hypot(np.maximum(0, np.maximum(sx0 - bx1, bx0 - sx1)),
                    np.maximum(0, np.maximum(sy0 - by1, by0 - sy1)))
     line = np.ascontiguousarray(line[gap <= bound])
-    upper, _ = _branch_and_bound(line, rings, verts, bx0, by0, side, nx, ny, float(tol),
+    upper = _branch_and_bound(line, rings, verts, bx0, by0, side, nx, ny, float(tol),
                                  MIN_CELL * float(tol))
     return float(upper)

@@ -116,11 +116,6 @@ class PlanGrid:
         """(xmin, ymin, xmax, ymax) of the grid [m]."""
         return float(self.x[0]), float(self.y[0]), float(self.x[-1]), float(self.y[-1])
 
-    def plan_points(self) -> np.ndarray:
-        """Plan nodes, shape (ny * nx, 2) [m], row-major (y outer, x inner)."""
-        xx, yy = np.meshgrid(self.x, self.y)
-        return np.column_stack([xx.ravel(), yy.ravel()])
-
     def points(self, heights=None) -> np.ndarray:
         """All nodes at ``heights`` (default: the grid's own) [m], shape
         (k * ny * nx, 3) [m], height outermost, then y, then x."""

@@ -185,9 +185,9 @@ def _wall_samples(start, vec, s0, first, last, r0, r1, h):
     """Samples along the outlines of rooms r0..r1-1, at most ``h`` apart on each
     segment, every vertex included: arc lengths from each room's first vertex,
     rooms, and plan points (n, 2), ordered by room."""
-    n = 0
     if r1 <= r0:
         return np.empty(0), np.empty(0, dtype=np.int64), np.empty((0, 2))
+    n = 0
     for e in range(first[r0], last[r1 - 1] + 1):
         n += max(math.ceil(math.hypot(vec[e, 0], vec[e, 1]) / h), 1)
     s, room, xy = np.empty(n), np.empty(n, dtype=np.int64), np.empty((n, 2))
@@ -204,7 +204,7 @@ def _wall_samples(start, vec, s0, first, last, r0, r1, h):
     return s, room, xy
 
 
-def _wall_starts(scene, walls, groups, first_room, nan_seen):
+def _wall_starts(scene, walls, groups, first_room, group_of, nan_seen):
     """Starts (arc length, z) and rooms for the wall search on every floor: the best
     local maxima of the interpolated band maximum along each outline (the model
     itself where the interpolation stencil has undefined nodes)."""
@@ -216,7 +216,6 @@ def _wall_starts(scene, walls, groups, first_room, nan_seen):
                                      ff.grid.spacing)
         parts.append((s, room, wxy, *ff.interpolate(wxy)))
     s, room, wxy, vals, wz, near_bad = (np.concatenate(c) for c in zip(*parts, strict=True))
-    group_of = np.repeat(np.arange(len(groups)), [len(p) for p, _ in groups])
     bad = np.flatnonzero(near_bad)
     if bad.size:
         heights = [groups[gi][1].grid.heights for gi in group_of[room[bad]]]
@@ -328,7 +327,7 @@ def room_maxima(scene, groups):
     fs, froom = np.concatenate(fs), np.concatenate(froom)
 
     # walls: starts (arc length, z) at the best local maxima along each outline
-    ws, wroom = _wall_starts(scene, walls, groups, first_room, nan_seen)
+    ws, wroom = _wall_starts(scene, walls, groups, first_room, group_of, nan_seen)
 
     # one search over both kinds and every floor: rows [0, nf) faces, [nf, n) walls
     spacing = np.array([ff.grid.spacing for _, ff in groups])[group_of]
